@@ -1,0 +1,5 @@
+import sys
+
+from gnssrel.cli import main
+
+sys.exit(main())

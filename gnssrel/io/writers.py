@@ -1,0 +1,99 @@
+"""Write tables and summaries atomically: a failed run never leaves a half-written file.
+
+Every output goes to a temporary file beside the target and is renamed over it
+only when complete (``os.replace`` is atomic on one file system).
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import os
+import tempfile
+from contextlib import contextmanager
+from pathlib import Path
+
+import numpy as np
+
+from gnssrel.errors import GnssrelInputError
+
+TABLE_SUFFIXES = (".csv", ".parquet", ".nc")
+
+
+@contextmanager
+def atomic_path(path: str | Path):
+    """Yield a temporary path next to ``path``; move it over ``path`` on success."""
+    path = Path(path)
+    if path.parent and not path.parent.exists():
+        raise GnssrelInputError("output folder does not exist", path.parent)
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=path.parent or ".")
+    os.close(fd)
+    try:
+        yield Path(tmp)
+        os.replace(tmp, path)
+    except BaseException:
+        if os.path.exists(tmp):
+            os.unlink(tmp)
+        raise
+
+
+def check_output_suffix(path: str | Path, allowed=TABLE_SUFFIXES) -> Path:
+    """Refuse an output name whose format we cannot write, before any work is done."""
+    path = Path(path)
+    if path.suffix.lower() not in allowed:
+        raise GnssrelInputError(f"unknown output format {path.suffix!r}; use one of "
+                                f"{', '.join(allowed)}", path)
+    return path
+
+
+def write_table(table, path: str | Path) -> Path:
+    """Write a pandas DataFrame (or xarray Dataset) as CSV, Parquet or NetCDF by suffix."""
+    import pandas as pd
+
+    path = check_output_suffix(path)
+    suffix = path.suffix.lower()
+    with atomic_path(path) as tmp:
+        if suffix == ".nc":
+            ds = table if hasattr(table, "to_netcdf") and not isinstance(table, pd.DataFrame) \
+                else table.to_xarray()
+            ds.to_netcdf(tmp)
+        else:
+            df = table if isinstance(table, pd.DataFrame) else table.to_dataframe().reset_index()
+            if suffix == ".csv":
+                df.to_csv(tmp, index=False, float_format="%.12g")
+            else:
+                df.to_parquet(tmp, index=False)
+    return path
+
+
+def _jsonable(obj):
+    if isinstance(obj, dict):
+        return {str(k): _jsonable(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [_jsonable(v) for v in obj]
+    if isinstance(obj, np.ndarray):
+        return _jsonable(obj.tolist())
+    if isinstance(obj, (np.bool_,)):
+        return bool(obj)
+    if isinstance(obj, np.integer):
+        return int(obj)
+    if isinstance(obj, (float, np.floating)):
+        v = float(obj)
+        return None if math.isnan(v) or math.isinf(v) else v
+    if isinstance(obj, np.datetime64):
+        return str(obj.astype("datetime64[ns]"))
+    return obj
+
+
+def to_json_text(summary: dict) -> str:
+    """Summary as JSON text: NaN becomes null, numpy scalars become numbers."""
+    return json.dumps(_jsonable(summary), indent=2, sort_keys=False)
+
+
+def write_json(summary: dict, path: str | Path) -> Path:
+    """Write a summary dictionary as JSON, atomically."""
+    path = Path(path)
+    text = to_json_text(summary)
+    with atomic_path(path) as tmp:
+        tmp.write_text(text + "\n")
+    return path

@@ -1,0 +1,32 @@
+"""Shared test fixtures: where the real reference data is, and physical tolerances."""
+
+from __future__ import annotations
+
+import os
+from pathlib import Path
+
+import pytest
+
+ROOT = Path(__file__).resolve().parents[1]
+SAMPLE_LOGS = ROOT / "sample_logs"
+REFDATA = Path(os.environ.get("GNSSREL_REFDATA", ROOT.parent / "shared" / "refdata"))
+
+# Tolerances as physical quantities.
+ONE_NANOSECOND = 1e-9
+ONE_PICOSECOND = 1e-12
+ONE_MILLIMETRE = 1e-3
+ONE_METRE = 1.0
+
+
+def refdata_file(relative: str) -> Path:
+    """Path of a reference file, skipping the test cleanly when it is absent."""
+    path = REFDATA / relative
+    if not path.exists():
+        pytest.skip(f"reference data {relative} not found under {REFDATA} "
+                    f"(set GNSSREL_REFDATA to its folder)")
+    return path
+
+
+@pytest.fixture
+def refdata():
+    return refdata_file
