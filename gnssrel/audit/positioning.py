@@ -1,0 +1,159 @@
+"""Single-point positioning from code pseudoranges, every epoch at once.
+
+Per epoch, weighted least squares (Gauss-Newton) for the receiver position, the
+receiver clock and one inter-system clock offset per extra system.  The normal
+equations of all epochs are built with ``np.bincount`` and solved as one stack
+of small systems (``np.linalg.solve`` on ``(n_epoch, m, m)``), so there is no
+Python loop over epochs.
+
+* Weights: sigma^2(el) = sigma0^2 (1 + 1 / sin^2 el), sigma0 = 1 m (common practice).
+* Elevation mask ``elevation_mask_deg`` (default 10 deg), applied once the
+  position has converged to within a kilometre (the first steps start from the
+  Earth's centre, where elevations mean nothing).
+* Outlier rejection: after convergence, per epoch, residuals beyond
+  max(``reject_m``, 5 robust sigma) are dropped and the epoch solved again
+  (up to three rounds); an epoch needs one more observation than unknowns
+  for any check, otherwise it is solved as it is.
+* ``terms`` switches the relativistic pieces (see :mod:`gnssrel.audit.corrections`).
+
+Returns a pandas DataFrame, one row per epoch: ``time``, ``x_m``, ``y_m``, ``z_m``,
+``clock_m``, ``n_used``, ``rms_m``; NaN where an epoch has fewer
+observations than unknowns.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+from gnssrel.audit.corrections import atmosphere_m, line_of_sight, modelled_pseudorange_m, resolve_terms
+
+SIGMA0_M = 1.0
+
+
+def _normal_equations(design, resid, weight, epoch, n_epoch):
+    m = design.shape[1]
+    n_mat = np.empty((n_epoch, m, m))
+    rhs = np.empty((n_epoch, m))
+    for i in range(m):
+        wi = weight * design[:, i]
+        rhs[:, i] = np.bincount(epoch, weights=wi * resid, minlength=n_epoch)
+        for j in range(i, m):
+            n_mat[:, i, j] = n_mat[:, j, i] = np.bincount(epoch, weights=wi * design[:, j], minlength=n_epoch)
+    return n_mat, rhs
+
+
+class _Problem:
+    """The fixed parts of one positioning run (observations, design layout, options)."""
+
+    def __init__(self, obs, n_epoch, terms, elevation_mask_deg, ionosphere_header):
+        self.obs, self.n_epoch, self.terms = obs, n_epoch, terms
+        self.mask_rad = np.radians(elevation_mask_deg)
+        self.iono_header = ionosphere_header
+        self.epoch = obs["epoch"]
+        systems = sorted(np.unique(obs["system"]))
+        self.n_unknown = 3 + len(systems)            # x, y, z, clock, one offset per extra system
+        self.sys_index = np.searchsorted(systems, obs["system"])
+        self.base = np.zeros((self.epoch.size, self.n_unknown))
+        self.base[:, 3] = 1.0
+        extra = self.sys_index > 0
+        self.base[np.flatnonzero(extra), 3 + self.sys_index[extra]] = 1.0
+
+    def residuals(self, state, near):
+        """Pre-fit residuals, design rows and weights at the current state."""
+        obs, ep = self.obs, self.epoch
+        rx = state[ep, :3]
+        near_obs = near[ep]
+        los = line_of_sight(obs, rx, sagnac=self.terms["sagnac"])
+        tropo, iono = atmosphere_m(obs, rx, los["elevation_rad"], los["azimuth_rad"], self.iono_header)
+        tropo = np.where(near_obs, tropo, 0.0)
+        iono = np.where(near_obs & np.isfinite(iono), iono, 0.0)
+        clock = np.einsum("ij,ij->i", self.base[:, 3:], state[ep, 3:])
+        resid = obs["pseudorange_m"] - modelled_pseudorange_m(obs, los, tropo, iono, clock, self.terms)
+        design = self.base.copy()
+        design[:, :3] = -los["unit_los"]
+        el = los["elevation_rad"]
+        sin_el = np.where(near_obs, np.maximum(np.sin(el), 0.05), 1.0)
+        weight = 1.0 / (SIGMA0_M**2 * (1.0 + 1.0 / sin_el**2))
+        weight = np.where(near_obs & (el < self.mask_rad), 0.0, weight)
+        return resid, design, weight
+
+    def gauss_newton(self, state, near, active, max_iterations):
+        for _ in range(max_iterations):
+            resid, design, weight = self.residuals(state, near)
+            weight = np.where(active & np.isfinite(resid), weight, 0.0)
+            resid = np.where(weight > 0, resid, 0.0)
+            n_used = np.bincount(self.epoch, weights=(weight > 0).astype(float), minlength=self.n_epoch)
+            n_mat, rhs = _normal_equations(design, resid, weight, self.epoch, self.n_epoch)
+            solvable = n_used >= self.n_unknown
+            solvable[solvable] &= np.linalg.cond(n_mat[solvable]) < 1e12
+            step = np.zeros_like(state)
+            if solvable.any():
+                step[solvable] = np.linalg.solve(n_mat[solvable], rhs[solvable][..., None])[..., 0]
+            state = state + step
+            size = np.linalg.norm(step[:, :3], axis=1)
+            was_near = near
+            near = near | (solvable & (size < 1000.0) & (np.linalg.norm(state[:, :3], axis=1) > 6.0e6))
+            done = ~solvable | ((size < 1e-3) & was_near)
+            if done.all():
+                break
+        return state, near, solvable, n_used
+
+
+def single_point_positions(obs: dict, n_epoch: int, times, terms=None, elevation_mask_deg: float = 10.0,
+                           initial_ecef_m=None, ionosphere_header=None, reject_m: float = 30.0,
+                           max_iterations: int = 15) -> pd.DataFrame:
+    """Positions of every epoch from the prepared observations (:func:`prepare_observations`).
+
+    ``n_epoch`` and ``times`` describe the epoch grid that ``obs["epoch"]`` indexes.
+    """
+    problem = _Problem(obs, n_epoch, resolve_terms(terms), elevation_mask_deg, ionosphere_header)
+    epoch = problem.epoch
+    active = np.isfinite(obs["pseudorange_m"]) & np.all(np.isfinite(obs["satellite_ecef_m"]), axis=1) \
+        & np.isfinite(obs["clock_poly_s"])
+    state = np.zeros((n_epoch, problem.n_unknown))
+    near = np.zeros(n_epoch, bool)
+    if initial_ecef_m is not None:
+        state[:, :3] = np.asarray(initial_ecef_m, dtype=float)
+    state, near, solvable, n_used = problem.gauss_newton(state, near, active, max_iterations)
+    for _ in range(3):                                    # outlier rejection rounds
+        resid, _, weight = problem.residuals(state, near)
+        post = np.where(active & (weight > 0), resid, np.nan)
+        med = _epoch_median(np.abs(post), epoch, n_epoch)
+        limit = np.maximum(reject_m, 5.0 * 1.4826 * med)[epoch]
+        bad = (n_used > problem.n_unknown)[epoch] & (np.abs(post) > limit)
+        if not bad.any():
+            break
+        active &= ~bad
+        state, near, solvable, n_used = problem.gauss_newton(state, near, active, max_iterations)
+    resid, _, weight = problem.residuals(state, near)
+    used = active & (weight > 0) & np.isfinite(resid)
+    rms = np.sqrt(np.bincount(epoch, weights=np.where(used, resid, 0.0) ** 2, minlength=n_epoch)
+                  / np.maximum(n_used, 1))
+    ok = solvable & near
+    out = np.where(ok[:, None], state, np.nan)
+    return pd.DataFrame({"time": np.asarray(times), "x_m": out[:, 0], "y_m": out[:, 1], "z_m": out[:, 2],
+                         "clock_m": out[:, 3], "n_used": n_used.astype(int),
+                         "rms_m": np.where(ok, rms, np.nan)})
+
+
+def _epoch_median(values, epoch, n_epoch):
+    """Median of ``values`` per epoch, ignoring NaN (sorting once, no loop over epochs)."""
+    ok = np.isfinite(values)
+    v, e = values[ok], epoch[ok]
+    order = np.lexsort((v, e))
+    v, e = v[order], e[order]
+    counts = np.bincount(e, minlength=n_epoch)
+    start = np.concatenate([[0], np.cumsum(counts)[:-1]])
+    lo = start + (counts - 1) // 2
+    hi = start + counts // 2
+    med = np.full(n_epoch, np.inf)
+    has = counts > 0
+    med[has] = 0.5 * (v[np.minimum(lo[has], v.size - 1)] + v[np.minimum(hi[has], v.size - 1)])
+    return med
+
+
+def position_errors_3d_m(positions: pd.DataFrame, reference_ecef_m) -> np.ndarray:
+    """3-D distance of each epoch's position from a reference ECEF point."""
+    xyz = positions[["x_m", "y_m", "z_m"]].to_numpy()
+    return np.linalg.norm(xyz - np.asarray(reference_ecef_m, float), axis=1)

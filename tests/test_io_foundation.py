@@ -1,0 +1,72 @@
+"""File opening (compressions) and atomic writers."""
+
+import gzip
+import json
+import zipfile
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from gnssrel.errors import FileFormatError, GnssrelInputError
+from gnssrel.io import opening, writers
+
+TEXT = "     3.04           N: GNSS NAV DATA    M: MIXED            RINEX VERSION / TYPE\n"
+
+
+def test_plain_gzip_zip_read_the_same(tmp_path):
+    (tmp_path / "a.rnx").write_text(TEXT)
+    (tmp_path / "a.rnx.gz").write_bytes(gzip.compress(TEXT.encode()))
+    with zipfile.ZipFile(tmp_path / "a.zip", "w") as z:
+        z.writestr("a.rnx", TEXT)
+    for name in ("a.rnx", "a.rnx.gz", "a.zip"):
+        assert opening.read_text(tmp_path / name) == TEXT
+
+
+def test_unix_compress(tmp_path):
+    ncompress = pytest.importorskip("ncompress")
+    (tmp_path / "a.rnx.Z").write_bytes(ncompress.compress(TEXT.encode()))
+    assert opening.read_text(tmp_path / "a.rnx.Z") == TEXT
+
+
+def test_damaged_gzip_names_the_file(tmp_path):
+    data = gzip.compress(TEXT.encode() * 50)
+    (tmp_path / "bad.rnx.gz").write_bytes(data[: len(data) // 2])
+    with pytest.raises(FileFormatError, match=r"bad\.rnx\.gz: compressed file is damaged"):
+        opening.read_text(tmp_path / "bad.rnx.gz")
+
+
+def test_missing_file(tmp_path):
+    with pytest.raises(FileFormatError, match="no such file"):
+        opening.read_text(tmp_path / "nothere.rnx")
+
+
+def test_atomic_write_leaves_nothing_on_failure(tmp_path):
+    target = tmp_path / "out.csv"
+    with pytest.raises(RuntimeError):
+        with writers.atomic_path(target) as tmp:
+            tmp.write_text("half")
+            raise RuntimeError("boom")
+    assert list(tmp_path.iterdir()) == []
+
+
+def test_tables_round_trip(tmp_path):
+    df = pd.DataFrame({"sv": ["G01", "E11"], "periodic_icd_s": [1.25e-8, -3.5e-9]})
+    for suffix in (".csv", ".parquet"):
+        writers.write_table(df, tmp_path / f"t{suffix}")
+    back = pd.read_csv(tmp_path / "t.csv")
+    np.testing.assert_allclose(back["periodic_icd_s"], df["periodic_icd_s"], rtol=1e-12)
+    assert list(pd.read_parquet(tmp_path / "t.parquet")["sv"]) == ["G01", "E11"]
+    with pytest.raises(GnssrelInputError, match="unknown output format '.xls'"):
+        writers.write_table(df, tmp_path / "t.xls")
+
+
+def test_json_summary_nan_becomes_null(tmp_path):
+    writers.write_json({"a": np.float64("nan"), "b": np.int64(3), "c": np.bool_(True)}, tmp_path / "s.json")
+    assert json.loads((tmp_path / "s.json").read_text()) == {"a": None, "b": 3, "c": True}
+
+
+def test_error_message_is_one_line_with_file_and_line():
+    e = FileFormatError("garbled number", "x.rnx", 12, "G01 2020 06 25 00 00 00 1.2E-0X\n")
+    assert str(e) == "x.rnx:12: garbled number (line reads 'G01 2020 06 25 00 00 00 1.2E-0X')"
+    assert "\n" not in str(e)
