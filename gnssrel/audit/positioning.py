@@ -10,10 +10,10 @@ Python loop over epochs.
 * Elevation mask ``elevation_mask_deg`` (default 10 deg), applied once the
   position has converged to within a kilometre (the first steps start from the
   Earth's centre, where elevations mean nothing).
-* Outlier rejection: after convergence, per epoch, residuals beyond
-  max(``reject_m``, 5 robust sigma) are dropped and the epoch solved again
-  (up to three rounds); an epoch needs one more observation than unknowns
-  for any check, otherwise it is solved as it is.
+* Outlier rejection: after convergence, per epoch, the largest residual is
+  dropped when it exceeds max(``reject_m``, 5 a-priori sigma of its weight) and
+  the epoch solved again (up to four rounds); an epoch needs one more
+  observation than unknowns for any check, otherwise it is solved as it is.
 * ``terms`` switches the relativistic pieces (see :mod:`gnssrel.audit.corrections`).
 
 Returns a pandas DataFrame, one row per epoch: ``time``, ``x_m``, ``y_m``, ``z_m``,
@@ -29,6 +29,7 @@ import pandas as pd
 from gnssrel.audit.corrections import atmosphere_m, line_of_sight, modelled_pseudorange_m, resolve_terms
 
 SIGMA0_M = 1.0
+MAX_REJECTION_ROUNDS = 4
 
 
 def _normal_equations(design, resid, weight, epoch, n_epoch):
@@ -116,15 +117,16 @@ def single_point_positions(obs: dict, n_epoch: int, times, terms=None, elevation
     if initial_ecef_m is not None:
         state[:, :3] = np.asarray(initial_ecef_m, dtype=float)
     state, near, solvable, n_used = problem.gauss_newton(state, near, active, max_iterations)
-    for _ in range(3):                                    # outlier rejection rounds
+    for _ in range(MAX_REJECTION_ROUNDS):                 # outlier rejection: the worst one per epoch
         resid, _, weight = problem.residuals(state, near)
-        post = np.where(active & (weight > 0), resid, np.nan)
-        med = _epoch_median(np.abs(post), epoch, n_epoch)
-        limit = np.maximum(reject_m, 5.0 * 1.4826 * med)[epoch]
-        bad = (n_used > problem.n_unknown)[epoch] & (np.abs(post) > limit)
-        if not bad.any():
+        post = np.where(active & (weight > 0), np.abs(resid), np.nan)
+        worst = _epoch_max_index(post, epoch, n_epoch)
+        limit = np.maximum(reject_m, 5.0 / np.sqrt(np.where(weight > 0, weight, np.inf)))  # 5 a-priori sigma
+        ep_w = epoch[worst]
+        bad = worst[(post[worst] > limit[worst]) & (n_used[ep_w] > problem.n_unknown)]
+        if bad.size == 0:
             break
-        active &= ~bad
+        active[bad] = False
         state, near, solvable, n_used = problem.gauss_newton(state, near, active, max_iterations)
     resid, _, weight = problem.residuals(state, near)
     used = active & (weight > 0) & np.isfinite(resid)
@@ -137,20 +139,12 @@ def single_point_positions(obs: dict, n_epoch: int, times, terms=None, elevation
                          "rms_m": np.where(ok, rms, np.nan)})
 
 
-def _epoch_median(values, epoch, n_epoch):
-    """Median of ``values`` per epoch, ignoring NaN (sorting once, no loop over epochs)."""
-    ok = np.isfinite(values)
-    v, e = values[ok], epoch[ok]
-    order = np.lexsort((v, e))
-    v, e = v[order], e[order]
-    counts = np.bincount(e, minlength=n_epoch)
-    start = np.concatenate([[0], np.cumsum(counts)[:-1]])
-    lo = start + (counts - 1) // 2
-    hi = start + counts // 2
-    med = np.full(n_epoch, np.inf)
-    has = counts > 0
-    med[has] = 0.5 * (v[np.minimum(lo[has], v.size - 1)] + v[np.minimum(hi[has], v.size - 1)])
-    return med
+def _epoch_max_index(values, epoch, n_epoch):
+    """Index of the largest finite value of each epoch that has one."""
+    ok = np.flatnonzero(np.isfinite(values))
+    order = ok[np.lexsort((values[ok], epoch[ok]))]
+    last = np.flatnonzero(np.diff(np.append(epoch[order], -1)) != 0)   # last of each epoch run
+    return order[last]
 
 
 def position_errors_3d_m(positions: pd.DataFrame, reference_ecef_m) -> np.ndarray:

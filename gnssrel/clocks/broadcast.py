@@ -23,13 +23,15 @@ from __future__ import annotations
 
 import numpy as np
 
+from gnssrel.relativity.rules import RULES
 from gnssrel.timescales import seconds_between, week_crossover
 
-POLYNOMIAL_HOLDS_PERIODIC = {"G": False, "E": False, "C": False, "J": False, "R": True}
+POLYNOMIAL_HOLDS_PERIODIC = {letter: not rule.user_applies_periodic for letter, rule in RULES.items()}
 """Does the broadcast clock polynomial already contain the periodic relativistic term?
-G/J: IS-GPS-200 20.3.3.3.3.1 (user adds Delta t_r); E: Galileo OS SIS ICD 5.1.4;
-C: BDS-SIS-ICD 5.2.4.10; R: NAVI "Relativistic Clock Correction" (published: for
-GLONASS the term is inside tau_n, gamma_n)."""
+Taken from the relativity rules table (``gnssrel.relativity.rules.RULES``): where the
+user does not add the term (GLONASS: NAVI "Relativistic Clock Correction", published)
+it is inside the broadcast clock terms; G/J: IS-GPS-200 20.3.3.3.3.1, E: Galileo OS SIS
+ICD 5.1.4, C: BDS-SIS-ICD 5.2.4.10 (user adds it)."""
 
 # Frequencies (MHz) for the group-delay factors: IS-GPS-200 3.3.1.1 (L1 1575.42, L2 1227.60);
 # Galileo OS SIS ICD 2.x table 2 (E1 1575.42, E5a 1176.45, E5b 1207.14); BDS ICDs

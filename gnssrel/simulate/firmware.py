@@ -13,13 +13,12 @@ from __future__ import annotations
 
 import numpy as np
 
-from gnssrel.constants import C_M_S
+from gnssrel.constants import C_M_S, OMEGA_EARTH_IERS_RAD_S
 from gnssrel.simulate import truth
 from gnssrel.simulate.geodesy import ecef_to_geodetic, enu_matrix
 from gnssrel.simulate.observe import ELEVATION_MASK_RAD, group_delay_s, ionosphere_l1_m
 from gnssrel.simulate.propagation import L1_HZ, rotate_z, troposphere_m
 from gnssrel.simulate.scenario import FREQUENCY_HZ, SIGNALS
-from gnssrel.constants import OMEGA_EARTH_IERS_RAD_S
 
 PERIODIC_FACTOR = {"applied": 1.0, "omitted": 0.0, "reversed": -1.0, "doubled": 2.0}
 SYSTEM_COLUMNS = "GEC"

@@ -93,7 +93,7 @@ def simulate_observables(scn, rcv, rng: np.random.Generator) -> dict:
         iono = iono_l1_m * (L1_HZ / freq) ** 2
         code = common_m + C_M_S * group_delay_s(scn, letter, band) + iono \
             + code_sigma * rng.standard_normal(common_m.shape)
-        ambiguity = rng.integers(-40_000_000, 40_000_000, len(sv))
+        ambiguity = rng.integers(-500_000, 500_000, len(sv))
         phase = (common_m - iono + PHASE_NOISE_M * rng.standard_normal(common_m.shape)) / wavelength \
             + ambiguity
         strength = np.round((snr - 4.0 * band + rng.normal(0, 0.8, snr.shape)) * 4) / 4

@@ -39,7 +39,7 @@ SIGNALS = {"G": (("C1C", "L1C", "S1C"), ("C2W", "L2W", "S2W")),
            "C": (("C2I", "L2I", "S2I"), ("C6I", "L6I", "S6I"))}
 
 # How often each system's broadcast records are issued (s) and their time-of-transmission lead.
-ISSUE_INTERVAL_S = {"G": 7200, "E": 1800, "C": 3600}
+ISSUE_INTERVAL_S = {"G": 7200, "E": 3600, "C": 3600}
 TRANSMISSION_LEAD_S = {"G": 7200, "E": 600, "C": 3600}
 NAV_TYPE = {"G": "LNAV", "E": "FNAV", "C": "D1"}
 GALILEO_FNAV_DATA_SOURCES = 258  # bits 1 (F/NAV E5a-I) and 8 (clock for E5a,E1): RINEX 3.04 Table A8
@@ -122,7 +122,7 @@ def _constellation(rng: np.random.Generator) -> list[dict]:
             e = rng.uniform(0.002, 0.018)
             add(f"G{next(prn):02d}", rng.normal(5153.65, 0.05), e, rng.normal(55.0, 0.6),
                 60.0 * plane + rng.normal(0, 1.5), 90.0 * slot + 15.0 * plane + rng.normal(0, 4))
-    # One GPS satellite on a markedly eccentric orbit: a big periodic term (~100 ns).
+    # G15 on a markedly eccentric orbit: a big periodic term (~100 ns).
     sats[13]["e"] = 0.047
     prn_e = iter([1, 2, 3, 4, 5, 7, 8, 9, 10, 11, 12, 13, 15, 19, 21, 24, 26, 27])
     for plane in range(3):
@@ -130,7 +130,7 @@ def _constellation(rng: np.random.Generator) -> list[dict]:
             add(f"E{next(prn_e):02d}", rng.normal(5440.61, 0.03), rng.uniform(0.0002, 0.0025),
                 rng.normal(56.0, 0.3), 120.0 * plane + rng.normal(0, 1.0),
                 60.0 * slot + 20.0 * plane + rng.normal(0, 3))
-    sats[24 + 16]["e"] = 0.072  # an eccentric Galileo orbit as well (~170 ns periodic term)
+    sats[24 + 16]["e"] = 0.072  # E26: an eccentric Galileo orbit as well (~170 ns periodic term)
     for k, p in enumerate((19, 20, 21, 22, 23, 24)):
         add(f"C{p}", rng.normal(5282.62, 0.04), rng.uniform(0.0005, 0.003), rng.normal(55.0, 0.4),
             120.0 * (k // 2) + 40.0, 180.0 * (k % 2) + 45.0 * (k // 2) + rng.normal(0, 3))

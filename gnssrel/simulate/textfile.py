@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import os
 from pathlib import Path
 
 import numpy as np
@@ -34,4 +35,5 @@ def write_lines(path: str | Path, lines) -> Path:
     text = "\n".join(lines) + "\n"
     with atomic_path(path) as tmp:
         tmp.write_bytes(text.encode("ascii"))
+        os.chmod(tmp, 0o644)  # an ordinary readable data file, not the temporary's 0600
     return path

@@ -66,7 +66,7 @@ def navigation_text(ephemerides: dict, header: dict) -> list[str]:
         f"{name:<4} " + "".join(f"{v:12.4E}" for v in vals), "IONOSPHERIC CORR")
     out += [ion("GAL", tuple(header["nequick_ai"]) + (0.0,)),
             ion("GPSA", header["klobuchar_alpha"]), ion("GPSB", header["klobuchar_beta"])]
-    for name in ("GAGP", "GPUT", "GAUT", "BDUT"):
+    for name in ("GAGP", "GPUT"):
         # Galileo and BeiDou are on GPST here (GST = GPST, BDT = GPST - 14 s exactly); UTC
         # offsets are integer seconds (the leap seconds), so every polynomial is zero.
         out.append(header_line(f"{name:<4} {0.0:17.10E}{0.0:16.9E} {int(header['sow']):6d} "

@@ -30,10 +30,11 @@ def sp3_text(times, sv, position_ecef_m, clock_s, agency: str, comments=(),
     n_t, n_sat = len(times), len(sv)
     interval = seconds_between(times[1], times[0]) if n_t > 1 else 0.0
     week, sow = to_week_seconds(times[:1], "GPST")
-    days = seconds_between(times[0], MJD_ORIGIN) / 86400.0
-    mjd = int(np.floor(days))
+    since_mjd0_s = seconds_between(times[0], MJD_ORIGIN)
+    mjd = int(since_mjd0_s // 86400)
+    fraction = (since_mjd0_s - 86400 * mjd) / 86400.0
     out = [f"#dP{_epoch_fields(times[0])} {n_t:7d} ORBIT {frame:5s} FIT {agency:4s}",
-           f"## {int(week[0]):4d} {sow[0]:15.8f} {interval:14.8f} {mjd:5d} {days - mjd:15.13f}"]
+           f"## {int(week[0]):4d} {sow[0]:15.8f} {interval:14.8f} {mjd:5d} {fraction:15.13f}"]
     n_lines = max(5, -(-n_sat // 17))
     ids = list(sv) + ["  0"] * (17 * n_lines - n_sat)
     acc = [f"{accuracy_exponent:3d}"] * n_sat + ["  0"] * (17 * n_lines - n_sat)

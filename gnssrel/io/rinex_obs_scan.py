@@ -1,0 +1,245 @@
+"""Find the epochs and satellite records of a RINEX observation body, vectorized.
+
+RINEX 3/4 (RINEX 3.05 table A13, RINEX 4.00 table A12): every epoch record starts with
+a line beginning ``>``; columns 32 (flag) and 33-35 (count) say what follows:
+flags 0/1 (1 = power failure since the previous epoch) are followed by ``count``
+satellite lines ``Snn`` + 16-character fields; flags 2-5 by ``count`` special
+records (header lines, or nothing for an external event); flag 6 by ``count``
+cycle-slip records (consumed, not returned).
+
+RINEX 2.11 (table A2): the epoch line is " yy mm dd hh mm ss.sssssss  f nnn" with up to
+12 satellites in columns 33-68 and continuation lines for more; each satellite then
+takes ceil(n_types / 5) lines of five 16-character fields.  Flags as in RINEX 3.
+
+A damaged epoch (unreadable epoch line, count that disagrees with the lines that
+follow, a satellite line that is not a satellite, a field that is not a number, or a
+last epoch cut short by the end of the file) is skipped as a whole and its line
+number reported; the rest of the file is read.
+"""
+
+from __future__ import annotations
+
+import bisect
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from gnssrel.io.rinex_obs_fields import (DecodedFields, Lines, civil_to_datetime64, columns,
+                                         decode_observation_fields, seconds_field_ns, sv_names,
+                                         unsigned_field)
+
+
+@dataclass
+class Scan:
+    """What the body held: kept data epochs and their satellite records."""
+
+    epoch_time: np.ndarray        # datetime64[ns] GPST of kept data epochs (n_epoch,)
+    epoch_flag: np.ndarray        # int (n_epoch,): 0, or 1 = power failure before this epoch
+    epoch_line: np.ndarray        # file line number of each kept epoch line
+    record_epoch: np.ndarray      # int (n_rec,): index into the epoch arrays
+    record_sv: np.ndarray         # 'U3' (n_rec,)
+    decoded: DecodedFields        # (n_rec, n_fields)
+    all_data_times: np.ndarray    # datetime64[ns] file scale of every readable data epoch (no window)
+    damaged_lines: list = field(default_factory=list)   # file line numbers of skipped epochs
+    event_counts: dict = field(default_factory=dict)    # flag -> number of epoch records
+    special_lines: list = field(default_factory=list)   # (line, flag) of flag 2-5 records
+    undeclared_systems: set = field(default_factory=set)
+
+
+def _record_index(first_line, counts, stride=1):
+    """Line indices first_line[k] + stride * j for j < counts[k], concatenated."""
+    counts = np.asarray(counts, dtype=np.int64)
+    total = int(counts.sum())
+    owner = np.repeat(np.arange(counts.size), counts)
+    offset = np.arange(total) - np.repeat(np.cumsum(counts) - counts, counts)
+    return np.asarray(first_line, dtype=np.int64)[owner] + stride * offset, owner
+
+
+def _strip_trailing_blank(lines: Lines) -> int:
+    nonblank = np.flatnonzero(lines.lengths > 0)
+    return int(nonblank[-1]) + 1 if nonblank.size else 0
+
+
+def _in_window(t_gpst, start, end):
+    keep = np.ones(t_gpst.shape, dtype=bool)
+    if start is not None:
+        keep &= t_gpst >= start
+    if end is not None:
+        keep &= t_gpst <= end
+    return keep
+
+
+def _finish(lines, epoch_idx, flag, t_gpst, data_ok, damaged, rec_owner, names, rec_m, n_used,
+            with_flags, special):
+    """Shared tail of both scanners: decode fields, drop damaged epochs, build the Scan."""
+    decoded = decode_observation_fields(rec_m, n_used, with_flags)
+    bad_owner = np.unique(rec_owner[decoded.bad_row])
+    damaged[bad_owner] = True
+    data_ok &= ~damaged
+    keep_rec = data_ok[rec_owner]
+    # Renumber the kept epochs 0..n-1.
+    kept = np.flatnonzero(data_ok)
+    new_index = np.full(epoch_idx.size, -1)
+    new_index[kept] = np.arange(kept.size)
+    sel = np.flatnonzero(keep_rec)
+    decoded = DecodedFields(decoded.values[sel], None if decoded.lli is None else decoded.lli[sel],
+                            None if decoded.ssi is None else decoded.ssi[sel], decoded.bad_row[sel])
+    return Scan(epoch_time=t_gpst[kept], epoch_flag=flag[kept],
+                epoch_line=lines.numbers(epoch_idx[kept]), record_epoch=new_index[rec_owner[sel]],
+                record_sv=names[sel], decoded=decoded, all_data_times=np.array([]),
+                damaged_lines=lines.numbers(epoch_idx[damaged]).tolist(),
+                event_counts={int(f): int(n) for f, n in zip(*np.unique(flag[~damaged], return_counts=True))},
+                special_lines=list(zip(lines.numbers(epoch_idx[special & ~damaged]).tolist(),
+                                       flag[special & ~damaged].tolist())))
+
+
+def scan_v3(lines: Lines, fields: dict, letters, start, end, to_gpst, with_flags) -> Scan:
+    """Scan a RINEX 3/4 body.  ``fields``: {letter: [codes]}; ``letters``: systems to keep or None."""
+    n = _strip_trailing_blank(lines)
+    first = np.where(lines.lengths[:n] > 0, lines.raw[lines.starts[:n]], 0)
+    epoch_idx = np.flatnonzero(first == ord(">"))
+    em = columns(lines, epoch_idx, 35)
+    flag, flag_ok = unsigned_field(em, 31, 32)
+    count, count_ok = unsigned_field(em, 32, 35)
+    cols = [unsigned_field(em, a, b) for a, b in ((2, 6), (7, 9), (10, 12), (13, 15), (16, 18))]
+    ns, ns_ok = seconds_field_ns(em, 18, 29)
+    ok = ns_ok & (em[:, 1] == 32)
+    for _, c_ok in cols:
+        ok &= c_ok
+    t_file, t_ok = civil_to_datetime64(*(c for c, _ in cols), ns, ok)
+    available = np.append(epoch_idx[1:], n) - epoch_idx - 1
+    structural = flag_ok & count_ok & (flag <= 6) & (count <= available)
+    # Lines beyond the declared count (e.g. an epoch line that lost its '>') form one
+    # damaged epoch of their own: reported, and the records before them still read.
+    excess = structural & (count < available)
+    extra_damage = lines.numbers(epoch_idx[excess] + count[excess] + 1).tolist()
+    data = structural & (flag <= 1) & t_ok
+    special = structural & (flag >= 2) & (flag <= 5)
+    slip = structural & (flag == 6)
+    damaged = ~(data | special | slip)
+    if not lines.complete and epoch_idx.size:
+        damaged[-1] = True  # the last line was cut short
+        data[-1] = False
+    t_gpst = to_gpst(t_file)
+    all_data_times = t_file[data]
+    data &= _in_window(t_gpst, start, end)
+
+    # Satellite records of the data epochs in the window.
+    rec_lines, rec_owner = _record_index(epoch_idx[data] + 1, count[data])
+    rec_owner = np.flatnonzero(data)[rec_owner]
+    names, name_ok = sv_names(columns(lines, rec_lines, 3))
+    letter = np.array([s[:1] for s in fields], dtype="U1")
+    rec_letter = names.astype("U1")
+    declared = np.isin(rec_letter, letter)
+    undeclared = set(np.unique(rec_letter[name_ok & ~declared]).tolist())
+    wanted = declared if letters is None else declared & np.isin(rec_letter, list(letters))
+    # Records of undeclared or unwanted systems are not decoded; bad names damage their epoch.
+    damaged[np.unique(rec_owner[~name_ok])] = True
+    take = wanted & name_ok
+    rec_lines, rec_owner, names = rec_lines[take], rec_owner[take], names[take]
+    n_types = {s: len(codes) for s, codes in fields.items()}
+    n_used = np.array([n_types[s[0]] for s in names], dtype=np.int64) if names.size \
+        else np.zeros(0, np.int64)
+    n_max = max([n_types[s] for s in fields if letters is None or s in letters] or [0])
+    m = columns(lines, rec_lines, 3 + 16 * n_max)[:, 3:].reshape(names.size, n_max, 16)
+    scan = _finish(lines, epoch_idx, flag, t_gpst, data, damaged, rec_owner, names, m, n_used,
+                   with_flags, special)
+    scan.damaged_lines = sorted(scan.damaged_lines + extra_damage)
+    scan.all_data_times = all_data_times
+    scan.undeclared_systems = undeclared
+    return scan
+
+
+def _v2_epoch_lines(lines: Lines, n: int):
+    """Fixed columns of every line that can start a RINEX 2 epoch record (RINEX 2.11 table A2)."""
+    m = columns(lines, np.arange(n), 32)
+    flag, flag_ok = unsigned_field(m, 28, 29)
+    count, count_ok = unsigned_field(m, 29, 32)
+    cols = [unsigned_field(m, a, b) for a, b in ((1, 3), (4, 6), (7, 9), (10, 12), (13, 15))]
+    ns, ns_ok = seconds_field_ns(m, 15, 26)
+    ok = ns_ok & (m[:, 18] == ord(".")) & (m[:, 0] == 32)
+    for c in (3, 6, 9, 12, 26, 27):
+        ok &= m[:, c] == 32
+    for _, c_ok in cols:
+        ok &= c_ok
+    year = cols[0][0] + np.where(cols[0][0] < 80, 2000, 1900)
+    t_file, t_ok = civil_to_datetime64(year, *(c for c, _ in cols[1:]), ns, ok)
+    timed = t_ok & flag_ok & count_ok & (flag <= 6)
+    # Flags 2-5 may leave the epoch fields blank (RINEX 2.11 table A2).
+    untimed = (m[:, :28] == 32).all(axis=1) & flag_ok & count_ok & (flag >= 2) & (flag <= 5)
+    return timed | untimed, t_file, t_ok, flag, count
+
+
+def scan_v2(lines: Lines, codes: list, letters, start, end, to_gpst, with_flags) -> Scan:
+    """Scan a RINEX 2 body; ``codes`` is the header's one list of observation types."""
+    n = _strip_trailing_blank(lines)
+    n_per_sat = -(-len(codes) // 5)
+    candidate, t_file, t_ok, flag, count = _v2_epoch_lines(lines, n)
+    cand = np.flatnonzero(candidate)
+    is_obs = flag <= 1
+    n_cont = np.where((flag <= 1) | (flag == 6), np.maximum(-(-count // 12) - 1, 0), 0)
+    length = 1 + np.where((flag <= 1) | (flag == 6), n_cont + count * n_per_sat, count)
+    starts, damaged_starts = _v2_chain(cand, length, n, lines.complete)
+    epoch_idx = np.array(sorted(starts + damaged_starts), dtype=np.int64)
+    damaged = np.isin(epoch_idx, damaged_starts)
+    f, c, k = flag[epoch_idx], count[epoch_idx], n_cont[epoch_idx]
+    data = ~damaged & is_obs[epoch_idx] & t_ok[epoch_idx]
+    special = ~damaged & (f >= 2) & (f <= 5)
+    tf = t_file[epoch_idx]
+    t_gpst = to_gpst(tf)
+    all_data_times = tf[data]
+    data &= _in_window(t_gpst, start, end)
+
+    # Satellite lists: epoch line plus continuation lines, 12 names of 3 characters from column 33.
+    d = np.flatnonzero(data)
+    list_lines, list_owner = _record_index(epoch_idx[d], k[d] + 1)
+    slots = columns(lines, list_lines, 68)[:, 32:68].reshape(-1, 12, 3)
+    slot_no = (list_lines - epoch_idx[d][list_owner])[:, None] * 12 + np.arange(12)[None, :]
+    used = slot_no < c[d][list_owner][:, None]
+    names, name_ok = sv_names(slots[used], blank_system="G")  # RINEX 2.11 5.1: blank = GPS
+    rec_owner = d[np.repeat(list_owner, used.sum(axis=1))]
+    rec_no = slot_no[used]  # position of the satellite in its epoch's list
+    first_data_line = epoch_idx[rec_owner] + 1 + k[rec_owner] + rec_no * n_per_sat
+    damaged[np.unique(rec_owner[~name_ok])] = True
+    take = name_ok if letters is None else name_ok & np.isin(names.astype("U1"), list(letters))
+    names, rec_owner, first_data_line = names[take], rec_owner[take], first_data_line[take]
+    data_lines = (first_data_line[:, None] + np.arange(n_per_sat)[None, :]).ravel()
+    m = columns(lines, data_lines, 80).reshape(names.size, n_per_sat * 80)
+    m = m.reshape(names.size, n_per_sat * 5, 16)[:, :len(codes)]
+    n_used = np.full(names.size, len(codes), dtype=np.int64)
+    scan = _finish(lines, epoch_idx, f, t_gpst, data, damaged, rec_owner, names, m, n_used,
+                   with_flags, special)
+    scan.all_data_times = all_data_times
+    return scan
+
+
+def _v2_chain(cand: np.ndarray, length: np.ndarray, n: int, complete: bool):
+    """Follow the epoch records from the first candidate line: (good starts, damaged starts).
+
+    A record is damaged when another epoch line falls inside it or it runs past the end of
+    the file; a line where an epoch should start but that is none is a damaged epoch line.
+    Fast path: when every record ends where the next candidate starts, no loop is needed.
+    """
+    if cand.size == 0:
+        return [], []
+    ends = cand + length[cand]
+    if np.array_equal(ends[:-1], cand[1:]) and ends[-1] == n and complete:
+        return cand.tolist(), []
+    good, bad = [], []
+    cand_list = cand.tolist()
+    pos = cand_list[0]
+    while pos < n:
+        j = bisect.bisect_right(cand_list, pos)
+        next_cand = cand_list[j] if j < len(cand_list) else n
+        if not (j > 0 and cand_list[j - 1] == pos):  # not an epoch line where one should be
+            bad.append(pos)
+            pos = next_cand
+            continue
+        end = pos + int(length[pos])
+        if end > n or next_cand < end or (end == n and not complete):
+            bad.append(pos)
+            pos = next_cand
+            continue
+        good.append(pos)
+        pos = end
+    return good, bad

@@ -1,0 +1,133 @@
+"""``gnssrel audit``: per-observation corrections, positions and the relativity check of a receiver log.
+
+Wiring only: read the observation and navigation files, run
+:func:`gnssrel.audit.summary.audit_log`, write the tables and the summary.
+"""
+
+from __future__ import annotations
+
+import logging
+
+import numpy as np
+
+from gnssrel.errors import GnssrelInputError
+
+HELP = "audit a receiver log: corrections per observation, positions, the periodic-term fit"
+DESCRIPTION = (
+    "Attach every relativistic and propagation correction to every code observation of OBS, "
+    "compute single-point positions per epoch with the periodic term applied and omitted, fit "
+    "the factor k of the periodic relativistic term (k = 1: the satellites' clocks carry it as "
+    "IS-GPS-200 says), and, with --receiver-fixes, tell which hypothesis the receiver's own "
+    "fixes follow.")
+
+log = logging.getLogger(__name__)
+
+
+def add_arguments(parser) -> None:
+    parser.add_argument("obs", metavar="OBS", help="RINEX observation file (.rnx/.crx, .gz/.Z allowed)")
+    parser.add_argument("nav", metavar="NAV", nargs="+", help="RINEX navigation file(s) of the same day")
+    parser.add_argument("--precise", metavar="SP3|CLK", nargs="+",
+                        help="precise orbit/clock files (not yet used by the audit: refused)")
+    parser.add_argument("--position", metavar="X,Y,Z",
+                        help="reference receiver position, ECEF metres (default: the header's)")
+    parser.add_argument("--receiver-fixes", metavar="FILE",
+                        help="the receiver's own fixes: NMEA 0183 GGA log or CSV (see gnssrel.io.receiver_fixes)")
+    parser.add_argument("--fix-date", metavar="YYYY-MM-DD",
+                        help="UTC date of an NMEA log without RMC/ZDA sentences")
+    parser.add_argument("--receiver-clocks", metavar="FILE",
+                        help="the receiver's own satellite clock corrections (CSV of the clocks command)")
+    parser.add_argument("--systems", default=None, help="systems to use, e.g. GE (default: all supported)")
+    parser.add_argument("--start", help="first epoch, with its scale (e.g. '2024-05-03T06:00 GPST')")
+    parser.add_argument("--end", help="last epoch, with its scale")
+    parser.add_argument("--step", type=float, default=None, metavar="SECONDS",
+                        help="keep only epochs on multiples of this interval")
+    parser.add_argument("--elevation-mask", type=float, default=10.0, metavar="DEG",
+                        help="elevation mask in degrees (default 10)")
+    parser.add_argument("--output", metavar="FILE", help="per-observation corrections table (.csv/.parquet/.nc)")
+    parser.add_argument("--positions", metavar="FILE",
+                        help="per-epoch positions and 3-D errors table (.csv/.parquet/.nc)")
+    parser.add_argument("--summary", metavar="FILE.json", help="write the summary as JSON")
+    parser.add_argument("--json", action="store_true", help="print the summary as JSON")
+
+
+def _parse_position(text: str):
+    try:
+        xyz = np.array([float(v) for v in text.split(",")])
+    except ValueError:
+        xyz = np.array([])
+    if xyz.size != 3 or not np.all(np.isfinite(xyz)) or np.linalg.norm(xyz) < 6.0e6:
+        raise GnssrelInputError(f"--position {text!r}: give X,Y,Z in metres (ECEF, near the Earth's surface)")
+    return xyz
+
+
+def _decimate(obs_ds, step_s):
+    if not step_s:
+        return obs_ds
+    t = obs_ds["time"].values.astype("datetime64[ns]").astype("int64")
+    keep = np.mod(t, round(step_s * 1e9)) == 0
+    if not keep.any():
+        raise GnssrelInputError(f"--step {step_s}: no epoch falls on a multiple of {step_s} s")
+    return obs_ds.isel(time=np.flatnonzero(keep))
+
+
+def run(args) -> dict:
+    from gnssrel.audit.summary import audit_log, audit_summary, per_epoch_errors
+    from gnssrel.io import writers
+    from gnssrel.timescales import parse_time
+
+    if args.precise:
+        raise GnssrelInputError("--precise: the audit uses broadcast orbits and clocks only so far; "
+                                "run without --precise")
+    if args.receiver_clocks:
+        raise GnssrelInputError("--receiver-clocks: the receiver clock check is not wired into the audit "
+                                "yet; run 'gnssrel clocks ... --receiver-clocks FILE'")
+    for out in (args.output, args.positions):
+        if out:
+            writers.check_output_suffix(out)
+    position = _parse_position(args.position) if args.position else None
+    systems = list(args.systems.upper()) if args.systems else None
+    start = parse_time(args.start, "GPST") if args.start else None
+    end = parse_time(args.end, "GPST") if args.end else None
+    from gnssrel import read_navigation, read_observations
+
+    obs_ds = read_observations(args.obs, systems=systems, start=start, end=end)
+    obs_ds = _decimate(obs_ds, args.step)
+    nav = read_navigation(args.nav[0], systems=systems)
+    for more in args.nav[1:]:
+        nav = nav.merge(read_navigation(more, systems=systems))
+    fixes = None
+    if args.receiver_fixes:
+        from gnssrel.io.receiver_fixes import read_receiver_fixes
+        fixes = read_receiver_fixes(args.receiver_fixes, date_utc=args.fix_date)
+    result = audit_log(obs_ds, nav, receiver_position_ecef_m=position, systems=systems,
+                       elevation_mask_deg=args.elevation_mask, fixes=fixes)
+    summary = audit_summary(result)
+    if args.output:
+        writers.write_table(result.corrections, args.output)
+    if args.positions:
+        table = per_epoch_errors(result)
+        for name, pos in result.positions.items():
+            for c in ("x_m", "y_m", "z_m", "clock_m"):
+                table[f"{c[:-2]}_{name.replace('-', '_')}_m"] = pos[c].to_numpy()
+        writers.write_table(table, args.positions)
+    if args.summary:
+        writers.write_json(summary, args.summary)
+    if args.json:
+        print(writers.to_json_text(summary))
+    elif not getattr(args, "quiet", False):
+        _print_text(summary)
+    return summary
+
+
+def _print_text(summary: dict) -> None:
+    o = summary["observations"]
+    print(f"observations: {o['n_epochs']} epochs, {o['n_sat']} satellites, systems {''.join(o['systems'])}")
+    for s, f in summary["relativity_k"].items():
+        rms = ", ".join(f"{k} {v:.2f} m" for k, v in f["rms_m"].items())
+        print(f"periodic-term factor {s}: k = {f['k']:.3f} +- {f['sigma']:.3f} (jackknife); residual RMS {rms}")
+    p = summary["position"]
+    if p["median_error_3d_m"] is not None:
+        print(f"median 3-D error vs {p['reference']} position: {p['median_error_3d_m']:.2f} m "
+              f"(without the periodic term {p['median_error_3d_m_without_periodic']:.2f} m)")
+    if summary["receiver_verdict"]:
+        print(f"receiver: {summary['receiver_verdict']}")

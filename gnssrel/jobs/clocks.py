@@ -1,0 +1,152 @@
+"""``gnssrel clocks``: broadcast versus precise satellite clocks, and which convention a clock follows.
+
+Wiring only: read the navigation and precise clock files (SP3 or RINEX clock,
+told apart by content), run :func:`gnssrel.clocks.compare.compare_clocks` and,
+with ``--receiver-clocks``, :func:`gnssrel.clocks.firmware.check_receiver_clocks`;
+write the tables and the summary.
+"""
+
+from __future__ import annotations
+
+import logging
+
+from gnssrel.errors import FileFormatError, GnssrelInputError
+
+HELP = "compare broadcast and precise satellite clocks; fit the periodic-term convention"
+DESCRIPTION = (
+    "Evaluate the broadcast clock of every satellite at the epochs of the precise clocks (SP3 or "
+    "RINEX clock files), remove the per-epoch datum robustly, report per-satellite mean/std/RMS "
+    "of precise minus broadcast, and fit the factor k of the periodic relativistic term in each "
+    "system's clocks (k = 0: the clocks exclude the term, as broadcast polynomials do). With "
+    "--receiver-clocks, check a receiver's own satellite clock corrections (CSV: time, "
+    "time_scale, sv, clock_correction_s[, flags]) for the known faults.")
+
+log = logging.getLogger(__name__)
+
+
+def add_arguments(parser) -> None:
+    parser.add_argument("nav", metavar="NAV", nargs="+", help="RINEX navigation file(s) of the day")
+    parser.add_argument("--precise", metavar="SP3|CLK", nargs="+",
+                        help="precise clocks: SP3 files (e.g. the day before and the day) or RINEX clock files")
+    parser.add_argument("--receiver-clocks", metavar="FILE.csv",
+                        help="a receiver's own satellite clock corrections (see gnssrel.io.receiver_clocks)")
+    parser.add_argument("--systems", default=None, help="systems to compare, e.g. GER (default: all)")
+    parser.add_argument("--start", help="first epoch, with its scale (e.g. '2020-06-25T00:00 GPST')")
+    parser.add_argument("--end", help="last epoch, with its scale")
+    parser.add_argument("--step", type=float, default=None, metavar="SECONDS",
+                        help="keep only precise epochs on multiples of this interval (e.g. 300)")
+    parser.add_argument("--datum", choices=("robust", "epoch-median"), default="robust",
+                        help="per-epoch datum: alternating median/mean (default) or the plain median")
+    parser.add_argument("--include-unhealthy", action="store_true",
+                        help="also compare satellites whose broadcast records are marked unhealthy")
+    parser.add_argument("--output", metavar="FILE", help="per-satellite, per-epoch table (.csv/.parquet/.nc)")
+    parser.add_argument("--summary", metavar="FILE.json", help="write the summary as JSON")
+    parser.add_argument("--json", action="store_true", help="print the summary as JSON")
+
+
+def precise_kind(path) -> str:
+    """"sp3" or "clock" from the file's first line (not its name)."""
+    from gnssrel.io.opening import read_bytes
+
+    first = read_bytes(path)[:400].decode("ascii", errors="replace").splitlines()
+    line = first[0] if first else ""
+    if line[:2] in ("#a", "#b", "#c", "#d"):
+        return "sp3"
+    # RINEX clock: file type "C" in column 21 (2.x, 3.00-3.02) or 22 (3.04), label from column 61/66.
+    if "RINEX VERSION / TYPE" in line and "C" in line[20:22]:
+        return "clock"
+    raise FileFormatError("neither an SP3 file (first line '#c'/'#d') nor a RINEX clock file "
+                          "(type C in RINEX VERSION / TYPE)", path, 1, line)
+
+
+def read_precise_clocks(paths, systems=None):
+    """Read SP3 or RINEX clock files (all of one kind) into a Dataset with ``clock_s`` (time, sv)."""
+    import numpy as np
+    import xarray as xr
+
+    kinds = {precise_kind(p) for p in paths}
+    if len(kinds) > 1:
+        raise GnssrelInputError("--precise: give either SP3 files or RINEX clock files, not both")
+    kind = kinds.pop()
+    if kind == "sp3":
+        from gnssrel.io.sp3 import read_sp3
+
+        return read_sp3(list(paths), systems=systems), "SP3 clocks"
+    from gnssrel.io.rinex_clock import read_rinex_clock
+
+    parts = [read_rinex_clock(p, systems=systems)[["clock_s"]] for p in paths]
+    ds = parts[0] if len(parts) == 1 else xr.concat(parts, dim="time", join="outer")
+    _, first = np.unique(ds["time"].values, return_index=True)
+    return ds.isel(time=np.sort(first)), "RINEX clock file"
+
+
+def run(args) -> dict:
+    from gnssrel import read_navigation
+    from gnssrel.io import writers
+    from gnssrel.timescales import parse_time
+
+    if not args.precise and not args.receiver_clocks:
+        raise GnssrelInputError("give --precise SP3|CLK files and/or --receiver-clocks FILE.csv")
+    if args.output:
+        writers.check_output_suffix(args.output)
+    systems = list(args.systems.upper()) if args.systems else None
+    start = parse_time(args.start, "GPST") if args.start else None
+    end = parse_time(args.end, "GPST") if args.end else None
+    navs = [read_navigation(p, systems=systems) for p in args.nav]
+    nav = navs[0] if len(navs) == 1 else type(navs[0]).merge(navs)
+    summary: dict = {}
+    table = None
+    if args.precise:
+        from gnssrel.clocks.compare import compare_clocks
+
+        precise, source = read_precise_clocks(args.precise, systems)
+        table, summary = compare_clocks(nav, precise, systems=systems, start=start, end=end,
+                                        step_s=args.step, datum_method=args.datum,
+                                        include_unhealthy=args.include_unhealthy,
+                                        precise_source=f"{source} ({', '.join(map(str, args.precise))})")
+    if args.receiver_clocks:
+        from gnssrel.clocks.firmware import check_receiver_clocks
+        from gnssrel.io.receiver_clocks import read_receiver_clocks
+
+        receiver = read_receiver_clocks(args.receiver_clocks)
+        if start is not None:
+            receiver = receiver[receiver["time"] >= start]
+        if end is not None:
+            receiver = receiver[receiver["time"] <= end]
+        rows, check = check_receiver_clocks(receiver, nav, systems=systems)
+        summary["receiver_clocks"] = check
+        if table is None:
+            table = rows
+    if args.output:
+        writers.write_table(table, args.output)
+    if args.summary:
+        writers.write_json(summary, args.summary)
+    if args.json:
+        print(writers.to_json_text(summary))
+    elif not getattr(args, "quiet", False):
+        _print_text(summary)
+    return summary
+
+
+def _fmt(value, spec=".2f"):
+    try:
+        return format(value, spec)
+    except (TypeError, ValueError):
+        return "-"
+
+
+def _print_text(summary: dict) -> None:
+    if "by_system" in summary:
+        print(f"precise minus broadcast clocks ({summary['n_epochs']} epochs, datum: {summary['datum_method']})")
+        print(f"{'sys':3} {'n_sat':>5} {'med std ns':>10} {'max std ns':>10} {'k':>7} {'sigma':>6}  convention")
+        for letter, e in summary["by_system"].items():
+            print(f"{letter:3} {e['n_sat']:5d} {_fmt(e['median_std_ns']):>10} {_fmt(e['max_std_ns']):>10} "
+                  f"{_fmt(e['convention_k'], '.3f'):>7} {_fmt(e['convention_k_sigma'], '.3f'):>6}  "
+                  f"{e['convention']}")
+    check = summary.get("receiver_clocks")
+    if check:
+        print("receiver satellite clocks")
+        for letter, e in check["by_system"].items():
+            print(f"{letter:3} {e['n_sat']:5d} k = {_fmt(e['convention_k'], '.3f')} +- "
+                  f"{_fmt(e['convention_k_sigma'], '.3f')} (expected {e['expected_k']:g}): {e['status']}; "
+                  f"week crossover: {e['week_crossover']}")

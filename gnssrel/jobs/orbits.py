@@ -1,0 +1,190 @@
+"""``gnssrel orbits``: satellite state histories from broadcast ephemerides, optionally against SP3.
+
+Wiring only: read the navigation files, build the epoch grid, call
+:func:`gnssrel.orbits.broadcast.broadcast_states`; with ``--precise`` read the
+SP3 files, interpolate them (:func:`gnssrel.orbits.precise.precise_states`) at
+their own epochs inside the span, and compare
+(:func:`gnssrel.orbits.compare.compare_with_precise`).
+
+Outputs: ``--output`` gets the long state table (time, sv, x_m ... status)
+without ``--precise``, the per-satellite comparison table with it; ``--summary``
+gets the summary JSON.  stdout: a short per-system table, or the summary JSON with ``--json``.
+"""
+
+from __future__ import annotations
+
+import logging
+
+import numpy as np
+
+from gnssrel.constants import SYSTEM_ORDER
+from gnssrel.errors import GnssrelInputError, NoDataError
+
+HELP = "satellite positions and velocities from broadcast ephemerides; compare with SP3"
+DESCRIPTION = (
+    "Compute the satellite state histories (ECEF position and velocity, status of each epoch) "
+    "from RINEX navigation files on a regular GPST grid. With --precise, compare the broadcast "
+    "positions with precise SP3 orbits at the SP3 epochs: per-satellite 3D, radial, along- and "
+    "cross-track RMS and the share of epochs covered. Times are GPST unless a scale is written "
+    "after them (e.g. '2020-06-25T06:00 UTC').")
+
+log = logging.getLogger(__name__)
+DEFAULT_STEP_S = 30.0
+
+
+def add_arguments(parser) -> None:
+    parser.add_argument("nav", metavar="NAV", nargs="+", help="RINEX navigation file(s) (2.x, 3.x, 4.00)")
+    parser.add_argument("--precise", metavar="SP3", nargs="+",
+                        help="SP3 orbit files (give the day before too, for interpolation across midnight)")
+    parser.add_argument("--systems", default=SYSTEM_ORDER, metavar="LETTERS",
+                        help=f"systems to include, e.g. GE (default: {SYSTEM_ORDER})")
+    parser.add_argument("--start", metavar="ISO", help="first epoch (default scale GPST; "
+                        "default: the first record of the navigation data)")
+    parser.add_argument("--end", metavar="ISO", help="last epoch (default scale GPST; "
+                        "default: the last record of the navigation data)")
+    parser.add_argument("--step", type=float, default=DEFAULT_STEP_S, metavar="SECONDS",
+                        help=f"grid interval without --precise (default {DEFAULT_STEP_S:g} s)")
+    parser.add_argument("--include-unhealthy", action="store_true",
+                        help="also use records flagged unhealthy and satellites excluded by rule (E14, E18)")
+    parser.add_argument("--frame", choices=("ecef", "eci"), default="ecef",
+                        help="eci adds inertial positions/velocities (ECEF frozen at the first epoch)")
+    parser.add_argument("--output", metavar="FILE", help="table to write (.csv, .parquet or .nc)")
+    parser.add_argument("--summary", metavar="FILE.json", help="write the summary as JSON")
+    parser.add_argument("--json", action="store_true", help="print the summary as JSON instead of a table")
+
+
+def _check_arguments(args):
+    from gnssrel.io.writers import check_output_suffix
+
+    if args.output:
+        check_output_suffix(args.output)
+    if args.summary:
+        check_output_suffix(args.summary, allowed=(".json",))
+    systems = "".join(args.systems.split()).upper()
+    unknown = sorted(set(systems) - set(SYSTEM_ORDER))
+    if not systems or unknown:
+        raise GnssrelInputError(f"--systems: unknown letters {''.join(unknown) or '(none given)'}; "
+                                f"use some of {SYSTEM_ORDER}")
+    if not args.step > 0:
+        raise GnssrelInputError(f"--step must be a positive number of seconds, not {args.step:g}")
+    return systems
+
+
+def _navigation(paths, systems):
+    from gnssrel.io.rinex_nav import NavigationData, read_navigation
+
+    items = [read_navigation(p, systems=systems) for p in paths]
+    nav = items[0] if len(items) == 1 else NavigationData.merge(items)
+    present = [s for s in systems if s in nav.ephemerides and len(nav.ephemerides[s])]
+    if not present:
+        raise NoDataError(f"no records of systems {systems} in the navigation data", paths[0])
+    return nav, "".join(present)
+
+
+def _span(nav, systems, args):
+    from gnssrel.timescales import parse_time
+
+    refs = [np.asarray(nav.ephemerides[s]["toe" if s != "R" else "toc"]).astype("datetime64[ns]")
+            for s in systems]
+    refs = np.concatenate(refs)
+    start = parse_time(args.start, "GPST") if args.start else refs.min()
+    end = parse_time(args.end, "GPST") if args.end else refs.max()
+    if end < start:
+        raise GnssrelInputError(f"--end ({end}) is before --start ({start})")
+    return start, end
+
+
+def _state_table(ds):
+    import pandas as pd
+
+    codes = ds["status"].attrs["status_codes"]
+    n_t, n_s = ds.sizes["time"], ds.sizes["sv"]
+    table = {"time": np.repeat(ds["time"].values, n_s), "sv": np.tile(ds["sv"].values, n_t)}
+    pairs = [("position_ecef_m", ("x_m", "y_m", "z_m")),
+             ("velocity_ecef_m_per_s", ("vx_m_per_s", "vy_m_per_s", "vz_m_per_s"))]
+    if "position_eci_m" in ds:
+        pairs += [("position_eci_m", ("x_eci_m", "y_eci_m", "z_eci_m")),
+                  ("velocity_eci_m_per_s", ("vx_eci_m_per_s", "vy_eci_m_per_s", "vz_eci_m_per_s"))]
+    for var, names in pairs:
+        values = ds[var].transpose("time", "sv", "axis").values.reshape(-1, 3)
+        table.update({name: values[:, k] for k, name in enumerate(names)})
+    table["clock_poly_s"] = ds["clock_poly_s"].values.ravel()
+    status = ds["status"].values.ravel()
+    table["status"] = np.array([codes[int(c)] for c in range(max(codes) + 1)], dtype=object)[status]
+    return pd.DataFrame(table)
+
+
+def _netcdf_ready(ds):
+    out = ds.copy()
+    codes = out["status"].attrs["status_codes"]
+    out["status"].attrs["status_codes"] = "; ".join(f"{k}: {v}" for k, v in codes.items())
+    return out
+
+
+def _states_summary(ds, start, end):
+    codes = ds["status"].attrs["status_codes"]
+    by_system = {}
+    for letter in dict.fromkeys(str(s)[0] for s in ds["sv"].values):
+        status = ds["status"].sel(sv=[s for s in ds["sv"].values if str(s)[0] == letter]).values
+        by_system[letter] = {"n_sat": int(status.shape[1]),
+                             "ok_share": float(np.mean(status == 0)) if status.size else float("nan"),
+                             "status_counts": {codes[int(c)]: int(n) for c, n in
+                                               zip(*np.unique(status, return_counts=True))}}
+    return {"mode": "states", "start": start, "end": end, "n_epochs": int(ds.sizes["time"]),
+            "time_scale": "GPST", "by_system": by_system}
+
+
+def _print_table(summary):
+    if summary["mode"] == "states":
+        print(f"{'system':<7}{'satellites':>11}{'epochs ok':>11}")
+        for letter, row in summary["by_system"].items():
+            print(f"{letter:<7}{row['n_sat']:>11d}{100 * row['ok_share']:>10.1f}%")
+        return
+    print(f"{'system':<7}{'satellites':>11}{'median 3D RMS':>15}{'max 3D RMS':>12}{'coverage':>10}")
+    for letter, row in summary["by_system"].items():
+        print(f"{letter:<7}{row['n_sat']:>11d}{row['median_rms_3d_m']:>13.2f} m"
+              f"{row['max_rms_3d_m']:>10.2f} m{100 * row['median_coverage']:>9.0f}%")
+
+
+def run(args) -> dict:
+    from gnssrel.io.writers import to_json_text, write_json, write_table
+    from gnssrel.orbits.broadcast import broadcast_states, time_grid
+
+    systems = _check_arguments(args)
+    nav, systems = _navigation(args.nav, systems)
+    start, end = _span(nav, systems, args)
+    if args.precise:
+        from gnssrel.io.sp3 import read_sp3
+        from gnssrel.orbits.compare import compare_with_precise
+        from gnssrel.orbits.precise import precise_states
+
+        sp3 = read_sp3(list(args.precise), systems=systems)
+        t = sp3["time"].values
+        times = t[(t >= start) & (t <= end)]
+        if times.size == 0:
+            raise NoDataError(f"the SP3 epochs ({t.min()} to {t.max()} GPST) do not overlap the "
+                              f"span {start} to {end} GPST", args.precise[0])
+        precise = precise_states(sp3, times)
+        states = broadcast_states(nav, times, systems, args.include_unhealthy)
+        table, summary = compare_with_precise(states, precise)
+        summary = {"mode": "comparison", "start": times[0], "end": times[-1],
+                   "n_epochs": int(times.size), "time_scale": "GPST",
+                   "include_unhealthy": bool(args.include_unhealthy), **summary}
+    else:
+        step_ns = int(round(args.step * 1e9))
+        remainder = int(start.astype("datetime64[ns]").astype(np.int64)) % step_ns
+        grid_start = start + np.timedelta64((step_ns - remainder) % step_ns, "ns")  # on multiples of step
+        times = time_grid(grid_start, end, args.step)
+        states = broadcast_states(nav, times, systems, args.include_unhealthy, frame=args.frame)
+        table = _netcdf_ready(states) if args.output and args.output.lower().endswith(".nc") \
+            else _state_table(states)
+        summary = _states_summary(states, times[0] if times.size else start, end)
+    if args.output:
+        write_table(table, args.output)
+    if args.summary:
+        write_json(summary, args.summary)
+    if args.json:
+        print(to_json_text(summary))
+    elif not args.quiet:
+        _print_table(summary)
+    return summary

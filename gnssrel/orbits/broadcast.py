@@ -1,0 +1,142 @@
+"""State histories from broadcast navigation data: select, evaluate, assemble.
+
+``broadcast_states(nav, times)`` returns the DEVELOPERS.md state-history
+Dataset on a (time, sv) grid for every system in the navigation data:
+Keplerian systems through ``keplerian.kepler_states``, GLONASS through
+``glonass.glonass_states``, each (epoch, satellite) served by the record that
+``selection.select_ephemerides`` chooses.  Epochs without a usable record are
+NaN, with the reason in ``status`` (codes in ``attrs["status_codes"]``).
+
+Broadcast clock polynomial, ``clock_poly_s`` (no periodic relativistic term, no group delay):
+
+* Keplerian systems: a_f0 + a_f1 dt + a_f2 dt^2, dt = t - toc (IS-GPS-200
+  20.3.3.3.3.1; Galileo OS SIS ICD 5.1.4; BDS-SIS-ICD-B1I 5.2.4.10).
+* GLONASS: -tau_n + gamma_n (t - t_b) (GLONASS ICD 2008 3.3.3 / A.3.1.2; the
+  contract's ``clock_bias_s`` is the file's -tau_n, ``relative_frequency_bias`` is gamma_n).
+
+dt is differenced in integer nanoseconds (``timescales.seconds_between``).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+
+import numpy as np
+import xarray as xr
+
+from gnssrel.constants import SYSTEM_ORDER
+from gnssrel.orbits.frames import OMEGA_ECI_RAD_S, ecef_to_eci
+from gnssrel.orbits.glonass import glonass_states
+from gnssrel.orbits.keplerian import kepler_states
+from gnssrel.orbits.selection import STATUS_CODES, select_ephemerides
+from gnssrel.timescales import as_datetime64, seconds_between
+
+KEPLER_SYSTEMS = "GECJ"
+AXES = ("x", "y", "z")
+_FLOAT_VARIABLES = ("clock_poly_s", "eccentricity", "sqrt_a_sqrt_m", "eccentric_anomaly_rad",
+                    "argument_of_latitude_rad", "inclination_rad", "radius_m")
+
+
+def time_grid(start, end, step_s: float) -> np.ndarray:
+    """GPST epochs from ``start`` to ``end`` inclusive every ``step_s`` seconds (datetime64[ns])."""
+    t0, t1 = as_datetime64(start)[()], as_datetime64(end)[()]
+    step_ns = int(round(float(step_s) * 1e9))
+    if step_ns <= 0:
+        raise ValueError(f"time step must be positive, not {step_s!r} s")
+    count = int((t1 - t0).astype(np.int64) // step_ns) + 1
+    return t0 + (np.arange(max(count, 0), dtype=np.int64) * step_ns).astype("timedelta64[ns]")
+
+
+def _ephemerides(nav) -> Mapping:
+    return nav.ephemerides if hasattr(nav, "ephemerides") else nav
+
+
+def _system_block(table, letter: str, times: np.ndarray, include_unhealthy: bool) -> dict:
+    """Arrays (n_time, n_sv[, 3]) for one system's satellites."""
+    svs = sorted(table["sv"].unique())
+    rows, status = select_ephemerides(table, svs, times, letter, include_unhealthy)
+    n_time, n_sv = rows.shape
+    valid = rows >= 0
+    picked = rows[valid]
+    t_valid = np.broadcast_to(times[:, None], rows.shape)[valid]
+    cols = {c: table[c].to_numpy()[picked] for c in table.columns if c not in ("sv", "line")}
+    if letter == "R":
+        states = glonass_states(cols, t_valid)
+        dt = seconds_between(t_valid, cols["toc"])
+        clock = cols["clock_bias_s"] + cols["relative_frequency_bias"] * dt
+        toe = cols["toc"]
+        ecc = sqrt_a = np.full(picked.size, np.nan)
+    else:
+        states = kepler_states(cols, t_valid, letter)
+        dt = seconds_between(t_valid, cols["toc"])
+        clock = cols["clock_bias_s"] + cols["clock_drift_s_per_s"] * dt \
+            + cols["clock_drift_rate_s_per_s2"] * dt * dt
+        toe, ecc, sqrt_a = cols["toe"], cols["eccentricity"], cols["sqrt_a_sqrt_m"]
+
+    def grid(values, fill=np.nan, dtype=np.float64, tail=()):
+        out = np.full((n_time, n_sv) + tail, fill, dtype=dtype)
+        out[valid] = values
+        return out
+
+    block = {"sv": svs, "status": status, "ephemeris_row": rows,
+             "position_ecef_m": grid(states["position_ecef_m"], tail=(3,)),
+             "velocity_ecef_m_per_s": grid(states["velocity_ecef_m_per_s"], tail=(3,)),
+             "clock_poly_s": grid(clock), "eccentricity": grid(ecc), "sqrt_a_sqrt_m": grid(sqrt_a),
+             "toe": grid(np.asarray(toe).astype("datetime64[ns]"), np.datetime64("NaT"), "datetime64[ns]"),
+             "toc": grid(np.asarray(cols["toc"]).astype("datetime64[ns]"), np.datetime64("NaT"),
+                         "datetime64[ns]")}
+    for name in ("eccentric_anomaly_rad", "argument_of_latitude_rad", "inclination_rad", "radius_m"):
+        block[name] = grid(states[name])
+    return block
+
+
+def broadcast_states(nav, times, systems=None, include_unhealthy: bool = False,
+                     frame: str = "ecef") -> xr.Dataset:
+    """Satellite state histories from broadcast ephemerides.
+
+    nav: ``NavigationData`` (or a mapping letter -> ephemeris DataFrame).
+    times: datetime64[ns] GPST epochs (n_time).
+    systems: letters to include (default: every system in ``nav`` that gnssrel handles).
+    include_unhealthy: use unhealthy records and rule-excluded satellites too.
+    frame: ``"ecef"``, or ``"eci"`` to add ``position_eci_m`` / ``velocity_eci_m_per_s``
+        in the ECEF frame frozen at the first epoch (``gnssrel.orbits.frames``).
+
+    Returns the contract Dataset: dims (time, sv, axis); ``position_ecef_m``,
+    ``velocity_ecef_m_per_s`` (time, sv, axis); ``status`` int8 (time, sv) with
+    ``attrs["status_codes"]``; ``clock_poly_s``, ``eccentricity``, ``sqrt_a_sqrt_m``,
+    ``eccentric_anomaly_rad``, ``argument_of_latitude_rad``, ``inclination_rad``,
+    ``radius_m``, ``toe``, ``toc``, ``ephemeris_row`` (row in the system's table, -1 none).
+    """
+    if frame not in ("ecef", "eci"):
+        raise ValueError(f"frame must be 'ecef' or 'eci', not {frame!r}")
+    times = as_datetime64(times).ravel()
+    tables = _ephemerides(nav)
+    wanted = SYSTEM_ORDER if systems is None else "".join(systems).upper()
+    letters = [s for s in SYSTEM_ORDER if s in wanted and s in tables and len(tables[s])]
+    blocks = [_system_block(tables[s], s, times, include_unhealthy) for s in letters]
+    if not blocks:
+        blocks = [{"sv": [], "status": np.zeros((times.size, 0), np.int8),
+                   "ephemeris_row": np.zeros((times.size, 0), np.int64),
+                   "position_ecef_m": np.zeros((times.size, 0, 3)),
+                   "velocity_ecef_m_per_s": np.zeros((times.size, 0, 3)),
+                   "toe": np.zeros((times.size, 0), "datetime64[ns]"),
+                   "toc": np.zeros((times.size, 0), "datetime64[ns]"),
+                   **{k: np.zeros((times.size, 0)) for k in _FLOAT_VARIABLES}}]
+    joined = {k: np.concatenate([b[k] for b in blocks], axis=1) for k in blocks[0] if k != "sv"}
+    svs = [sv for b in blocks for sv in b["sv"]]
+    vec, flat = ("time", "sv", "axis"), ("time", "sv")
+    data = {k: (vec if v.ndim == 3 else flat, v) for k, v in joined.items()}
+    ds = xr.Dataset(data, coords={"time": times, "sv": np.array(svs, dtype="<U3"), "axis": list(AXES)})
+    ds["status"].attrs["status_codes"] = dict(STATUS_CODES)
+    ds.attrs.update(time_scale="GPST", frame="ECEF", source="broadcast",
+                    include_unhealthy=int(include_unhealthy))
+    if frame == "eci" and times.size:
+        t_ref = times[0]
+        t_b = np.broadcast_to(times[:, None], ds["status"].shape)
+        r_eci, v_eci = ecef_to_eci(ds["position_ecef_m"].values, ds["velocity_ecef_m_per_s"].values,
+                                   t_b, t_ref)
+        ds["position_eci_m"] = (vec, r_eci)
+        ds["velocity_eci_m_per_s"] = (vec, v_eci)
+        ds.attrs.update(eci_reference_time=str(t_ref), eci_rotation_rate_rad_per_s=OMEGA_ECI_RAD_S,
+                        eci_frame="ECEF frozen at eci_reference_time (rotation about z only)")
+    return ds

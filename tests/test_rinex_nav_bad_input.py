@@ -1,0 +1,134 @@
+"""Bad navigation files give one FileFormatError naming the file and the line."""
+
+from __future__ import annotations
+
+import gzip
+
+import pytest
+
+from gnssrel.errors import FileFormatError, GnssrelInputError
+from gnssrel.io.rinex_nav import read_navigation
+
+HEADER3 = ("     3.04           N: GNSS NAV DATA    M: MIXED            RINEX VERSION / TYPE\n"
+           "    18                                                      LEAP SECONDS        \n"
+           "                                                            END OF HEADER       \n")
+RECORD = """\
+G02 2018 07 29 00 00 00 4.444736987352E-05-1.136868377216E-11 0.000000000000E+00
+     5.300000000000E+01-9.928125000000E+01 5.059496462622E-09-9.323327965461E-01
+    -4.759058356285E-06 1.796138891950E-02 4.099681973457E-06 5.153783548355E+03
+     0.000000000000E+00-1.452863216400E-07 2.347277701675E+00 3.799796104431E-07
+     9.511577990145E-01 2.990625000000E+02-1.843102142568E+00-8.680718729636E-09
+    -1.821504444400E-10 1.000000000000E+00 2.012000000000E+03 0.000000000000E+00
+     2.000000000000E+00 0.000000000000E+00-2.048909664154E-08 5.300000000000E+01
+    -7.182000000000E+03 4.000000000000E+00
+"""
+
+
+def _error(tmp_path, text, name="bad.rnx"):
+    path = tmp_path / name
+    path.write_text(text)
+    with pytest.raises(FileFormatError) as info:
+        read_navigation(path)
+    message = str(info.value)
+    assert "\n" not in message
+    return path, message
+
+
+def test_good_file_reads(tmp_path):
+    # The template itself is valid: the failures below come from the damage only.
+    path = tmp_path / "good.rnx"
+    path.write_text(HEADER3 + RECORD + RECORD.replace("G02", "G03"))
+    assert len(read_navigation(path).ephemerides["G"]) == 2
+
+
+def test_empty_file(tmp_path):
+    path, message = _error(tmp_path, "")
+    assert message.startswith(f"{path}:1: empty file")
+
+
+def test_empty_compressed_file(tmp_path):
+    path = tmp_path / "empty.rnx.gz"
+    path.write_bytes(gzip.compress(b"\n\n"))
+    with pytest.raises(FileFormatError, match=r"empty\.rnx\.gz:1: empty file"):
+        read_navigation(path)
+
+
+def test_no_end_of_header(tmp_path):
+    path, message = _error(tmp_path, HEADER3.splitlines(True)[0] + HEADER3.splitlines(True)[1])
+    assert message.startswith(f"{path}:2: no END OF HEADER line")
+
+
+def test_unknown_version(tmp_path):
+    path, message = _error(tmp_path, HEADER3.replace("     3.04", "     5.00") + RECORD)
+    assert message.startswith(f"{path}:1: unknown RINEX version '5.00'")
+
+
+def test_observation_file_is_refused(tmp_path):
+    text = ("     3.04           OBSERVATION DATA    M                   RINEX VERSION / TYPE\n"
+            "                                                            END OF HEADER\n")
+    path, message = _error(tmp_path, text)
+    assert message.startswith(f"{path}:1: not a navigation file (file type 'O'")
+
+
+def test_not_rinex_at_all(tmp_path):
+    path, message = _error(tmp_path, "#cP2020  6 25  0  0  0.00000000      96 ORBIT IGS14 HLM  GRG\n")
+    assert message.startswith(f"{path}:1: not a RINEX file")
+
+
+def test_truncated_last_record(tmp_path):
+    text = HEADER3 + RECORD + "".join(RECORD.splitlines(True)[:5])
+    path, message = _error(tmp_path, text)
+    # Second record starts at line 12; its 5th and last line is 16.
+    assert message.startswith(f"{path}:16: truncated G record: 5 of 8 lines (record starts at line 12)")
+
+
+def test_truncated_record_inside_the_file(tmp_path):
+    text = HEADER3 + "".join(RECORD.splitlines(True)[:6]) + RECORD
+    path, message = _error(tmp_path, text)
+    assert message.startswith(f"{path}:9: truncated G record: 6 of 8 lines")
+
+
+def test_garbled_number(tmp_path):
+    bad = RECORD.replace("5.153783548355E+03", "5.153783X48355E+03")
+    path, message = _error(tmp_path, HEADER3 + bad)
+    assert message.startswith(f"{path}:6: garbled number '5.153783X48355E+03' in columns 62-80")
+    assert "line reads" in message
+
+
+def test_garbled_epoch(tmp_path):
+    path, message = _error(tmp_path, HEADER3 + RECORD.replace("2018 07 29", "2018 13 29"))
+    assert message.startswith(f"{path}:4: impossible epoch")
+
+
+def test_blank_week(tmp_path):
+    path, message = _error(tmp_path, HEADER3 + RECORD.replace("2.012000000000E+03", " " * 18))
+    assert message.startswith(f"{path}:9: blank week field in a G record")
+
+
+def test_unknown_system_letter(tmp_path):
+    path, message = _error(tmp_path, HEADER3 + RECORD.replace("G02", "X02"))
+    assert message.startswith(f"{path}:4: unknown satellite system letter 'X'")
+
+
+def test_rinex4_bad_marker(tmp_path):
+    text = HEADER3.replace("3.04", "4.00") + "> EPH\n" + RECORD
+    path, message = _error(tmp_path, text)
+    assert message.startswith(f"{path}:4: record marker must read '> EPH Gnn TYPE'")
+
+
+def test_rinex4_truncated_eph(tmp_path):
+    text = HEADER3.replace("3.04", "4.00") + "> EPH G02 LNAV\n" + "".join(RECORD.splitlines(True)[:7])
+    path, message = _error(tmp_path, text)
+    assert message.startswith(f"{path}:11: truncated G record: 7 of 8 lines")
+
+
+def test_unknown_systems_argument(tmp_path):
+    path = tmp_path / "good.rnx"
+    path.write_text(HEADER3 + RECORD)
+    with pytest.raises(GnssrelInputError, match="unknown system letter"):
+        read_navigation(path, systems="GX")
+
+
+def test_missing_file(tmp_path):
+    with pytest.raises(FileFormatError, match="no such file"):
+        read_navigation(tmp_path / "absent.rnx")
