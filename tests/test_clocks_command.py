@@ -113,3 +113,30 @@ def test_unknown_output_format_is_refused_before_work(tmp_path, capsys):
     code, _out, err = _run(capsys, tmp_path / "nav.rnx", "--precise", tmp_path / "x.sp3",
                           "--output", tmp_path / "t.xlsx")
     assert code == 2 and "unknown output format" in err
+
+
+def _sample(name):
+    from conftest import SAMPLE_LOGS
+    path = SAMPLE_LOGS / name
+    if not path.exists():
+        pytest.skip(f"demo file {name} not generated")
+    return path
+
+
+def test_demo_receivers_verdicts_follow_the_scenario(tmp_path, capsys):
+    # sample_logs is an invented scenario (sample_logs/README.md): KVRP's firmware is correct,
+    # SLMB's omits the periodic term; its RINEX clock file is version 3.04 (type in column 22).
+    nav = _sample("KVRP00ZZZ_R_20251621000_03H_MN.rnx")
+    clk = _sample("KVA0DEMFIN_20251621000_03H_30S_CLK.CLK")
+    verdicts = {}
+    for receiver in ("KVRP", "SLMB"):
+        summary_path = tmp_path / f"{receiver}.json"
+        code, _, err = _run(capsys, nav, "--precise", clk, "--step", "300",
+                            "--receiver-clocks", _sample(f"{receiver}_satellite_clocks.csv"),
+                            "--summary", summary_path)
+        assert code == 0, err
+        summary = json.loads(summary_path.read_text())
+        assert summary["by_system"]["G"]["convention"] == "excludes-periodic"
+        verdicts[receiver] = {s: e["status"] for s, e in summary["receiver_clocks"]["by_system"].items()}
+    assert set(verdicts["KVRP"].values()) == {"as specified"}
+    assert set(verdicts["SLMB"].values()) == {"fault: periodic term missing"}

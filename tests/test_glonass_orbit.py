@@ -7,8 +7,8 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-
 from conftest import ONE_MILLIMETRE, refdata_file
+
 from gnssrel.constants import GLONASS
 from gnssrel.orbits.glonass import ACCELERATION_COLUMNS, STATE_COLUMNS, glonass_states, integrate_state
 

@@ -15,8 +15,8 @@ import numpy as np
 import pandas as pd
 import pytest
 import xarray as xr
-
 from conftest import ONE_MILLIMETRE, refdata_file
+
 from gnssrel.constants import BEIDOU_GEO_PRNS
 from gnssrel.orbits.frames import ecef_to_eci, eci_to_ecef
 from gnssrel.orbits.keplerian import kepler_states, solve_kepler
@@ -109,7 +109,7 @@ def _beidou_table():
 def test_beidou_geo_velocity_matches_difference_and_orbit_is_geostationary():
     table = _beidou_table()
     geo = table[table["is_geo"]]
-    assert set(int(s[1:]) for s in geo["sv"]) <= BEIDOU_GEO_PRNS and len(geo) > 10
+    assert {int(s[1:]) for s in geo["sv"]} <= BEIDOU_GEO_PRNS and len(geo) > 10
     cols = {c: geo[c].to_numpy() for c in geo.columns}
     t = geo["toe"].to_numpy() + np.timedelta64(1800, "s")
     half = np.timedelta64(500, "ms")
@@ -175,6 +175,6 @@ def test_ecef_eci_round_trip_and_speed_relation():
     assert np.max(np.abs(r_back - r)) < 1e-6 and np.max(np.abs(v_back - v)) < 1e-9
     # |r| is kept by the turn about z; at t_ref the inertial velocity is v + omega x r exactly
     assert np.allclose(np.linalg.norm(r_i, axis=1), np.linalg.norm(r, axis=1), rtol=0, atol=1e-6)
-    r0, v0 = ecef_to_eci(r, v, t_ref, t_ref)
+    _, v0 = ecef_to_eci(r, v, t_ref, t_ref)
     w = 7.2921151467e-5
     assert np.allclose(v0, v + np.stack((-w * r[:, 1], w * r[:, 0], 0 * r[:, 0]), -1), atol=1e-9)

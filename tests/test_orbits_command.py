@@ -4,11 +4,10 @@ from __future__ import annotations
 
 import json
 
-import numpy as np
 import pandas as pd
 import pytest
-
 from conftest import refdata_file
+
 from gnssrel.cli import main
 
 DAY = "2020-177/"

@@ -12,9 +12,9 @@ from datetime import datetime
 
 import numpy as np
 import pytest
+from conftest import refdata_file
 
 from gnssrel import read_observations
-from conftest import refdata_file
 
 georinex = pytest.importorskip("georinex")
 

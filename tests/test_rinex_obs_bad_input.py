@@ -14,10 +14,10 @@ import gzip
 
 import numpy as np
 import pytest
+from conftest import refdata_file
 
 from gnssrel import read_observations
 from gnssrel.errors import FileFormatError, GnssrelInputError
-from conftest import refdata_file
 
 pytestmark = pytest.mark.refdata
 
@@ -65,6 +65,7 @@ def test_rinex3_truncated_last_epoch_is_skipped_and_counted(tmp_path, pdel_ref, 
     assert ds.attrs["skipped_epochs"] == 1
     assert ds.attrs["skipped_epoch_lines"] == [PDEL_LAST_EPOCH]
     assert any("damaged epoch" in w and str(PDEL_LAST_EPOCH) in w for w in ds.attrs["warnings"])
+    assert any("does not end with a line end" in w for w in ds.attrs["warnings"]) == cut_mid_line
     _same_except(ds, pdel_ref, "2021-01-01T00:33:00")
 
 

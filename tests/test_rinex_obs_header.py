@@ -8,12 +8,12 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+from conftest import ONE_MILLIMETRE, refdata_file
 
 from gnssrel import read_observations
 from gnssrel.errors import FileFormatError
 from gnssrel.io.opening import read_bytes
 from gnssrel.io.rinex_obs_header import parse_obs_header
-from conftest import ONE_MILLIMETRE, refdata_file
 
 
 def _header(relative):

@@ -5,8 +5,8 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 import pytest
-
 from conftest import refdata_file
+
 from gnssrel.orbits.broadcast import broadcast_states, time_grid
 from gnssrel.orbits.selection import STATUS_CODES, select_ephemerides
 
@@ -27,11 +27,11 @@ def _table(rows):
 
 def gps_table():
     return _table([
-        dict(sv="G01", toe=_at(0), toc=_at(0), transmission_time=_at(-2), health=0, fit_interval_h=4.0),
-        dict(sv="G01", toe=_at(2), toc=_at(2), transmission_time=_at(0), health=0, fit_interval_h=4.0),
-        dict(sv="G01", toe=_at(4), toc=_at(4), transmission_time=_at(3.5), health=0, fit_interval_h=4.0),
-        dict(sv="G02", toe=_at(2), toc=_at(2), transmission_time=_at(0), health=1, fit_interval_h=4.0),
-        dict(sv="G03", toe=_at(2), toc=_at(2), transmission_time=_at(0), health=0, fit_interval_h=10.0),
+        {"sv": "G01", "toe": _at(0), "toc": _at(0), "transmission_time": _at(-2), "health": 0, "fit_interval_h": 4.0},
+        {"sv": "G01", "toe": _at(2), "toc": _at(2), "transmission_time": _at(0), "health": 0, "fit_interval_h": 4.0},
+        {"sv": "G01", "toe": _at(4), "toc": _at(4), "transmission_time": _at(3.5), "health": 0, "fit_interval_h": 4.0},
+        {"sv": "G02", "toe": _at(2), "toc": _at(2), "transmission_time": _at(0), "health": 1, "fit_interval_h": 4.0},
+        {"sv": "G03", "toe": _at(2), "toc": _at(2), "transmission_time": _at(0), "health": 0, "fit_interval_h": 10.0},
     ])
 
 
@@ -50,8 +50,8 @@ def test_gps_nearest_toe_within_half_fit_interval_and_already_transmitted():
 
 
 def test_not_yet_transmitted_has_its_own_reason():
-    table = _table([dict(sv="G05", toe=_at(4), toc=_at(4), transmission_time=_at(3), health=0,
-                         fit_interval_h=4.0)])
+    table = _table([{"sv": "G05", "toe": _at(4), "toc": _at(4), "transmission_time": _at(3), "health": 0,
+                         "fit_interval_h": 4.0}])
     rows, status = select_ephemerides(table, ["G05"], _at([2.5, 3.0, 5.9]), "G")
     assert rows[:, 0].tolist() == [-1, 0, 0]
     assert STATUS_CODES[status[0, 0]] == "ephemeris not yet transmitted"
@@ -59,10 +59,10 @@ def test_not_yet_transmitted_has_its_own_reason():
 
 def test_galileo_prefers_inav_keeps_one_hour_and_excludes_e14_e18():
     table = _table([
-        dict(sv="E01", toe=_at(1.0), toc=_at(1.0), transmission_time=_at(1.0), nav_type="FNAV", health=0, accuracy_m=3.12),
-        dict(sv="E01", toe=_at(0.5), toc=_at(0.5), transmission_time=_at(0.5), nav_type="INAV", health=0, accuracy_m=3.12),
-        dict(sv="E02", toe=_at(0.5), toc=_at(0.5), transmission_time=_at(0.5), nav_type="INAV", health=0, accuracy_m=-1.0),
-        dict(sv="E14", toe=_at(0.5), toc=_at(0.5), transmission_time=_at(0.5), nav_type="INAV", health=390, accuracy_m=3.12),
+        {"sv": "E01", "toe": _at(1.0), "toc": _at(1.0), "transmission_time": _at(1.0), "nav_type": "FNAV", "health": 0, "accuracy_m": 3.12},
+        {"sv": "E01", "toe": _at(0.5), "toc": _at(0.5), "transmission_time": _at(0.5), "nav_type": "INAV", "health": 0, "accuracy_m": 3.12},
+        {"sv": "E02", "toe": _at(0.5), "toc": _at(0.5), "transmission_time": _at(0.5), "nav_type": "INAV", "health": 0, "accuracy_m": -1.0},
+        {"sv": "E14", "toe": _at(0.5), "toc": _at(0.5), "transmission_time": _at(0.5), "nav_type": "INAV", "health": 390, "accuracy_m": 3.12},
     ])
     times = _at([1.1, 1.6, 2.05])
     rows, status = select_ephemerides(table, ["E01", "E02", "E14"], times, "E")
@@ -72,12 +72,12 @@ def test_galileo_prefers_inav_keeps_one_hour_and_excludes_e14_e18():
     assert rows[:, 0].tolist() == [e01_inav, e01_fnav, -1]
     assert status[:, 1].tolist() == [2, 1, 1]                    # SISA NAPA counts as unhealthy
     assert status[:, 2].tolist() == [3, 3, 3]                    # excluded by rule
-    rows_u, status_u = select_ephemerides(table, ["E14"], times, "E", include_unhealthy=True)
+    _, status_u = select_ephemerides(table, ["E14"], times, "E", include_unhealthy=True)
     assert status_u[:, 0].tolist() == [0, 1, 1]
 
 
 def test_glonass_within_15_minutes_of_tb():
-    table = _table([dict(sv="R07", toc=_at(0.5), health=0), dict(sv="R07", toc=_at(1.0), health=0)])
+    table = _table([{"sv": "R07", "toc": _at(0.5), "health": 0}, {"sv": "R07", "toc": _at(1.0), "health": 0}])
     rows, status = select_ephemerides(table, ["R07"], _at([0.2, 0.3, 0.74, 0.76, 1.25, 1.3]), "R")
     assert rows[:, 0].tolist() == [-1, 0, 0, 1, 1, -1]
     assert status[:, 0].tolist() == [1, 0, 0, 0, 0, 1]

@@ -219,6 +219,9 @@ def _header_body_checks(hdr, scan, name, to_gpst, warnings):
     if scan.damaged_lines:
         warnings.append(f"{len(scan.damaged_lines)} damaged epoch(s) skipped, at line(s) "
                         f"{_listing(scan.damaged_lines)}")
+    if not scan.ends_with_line_end:
+        warnings.append("the file does not end with a line end: its last line may be cut short, "
+                        "so its last epoch is skipped")
     power = scan.epoch_time[scan.epoch_flag == 1]
     if power.size:
         warnings.append(f"power failure (event flag 1) before epoch(s) {_listing([_when(t) for t in power])} GPST; "
@@ -229,6 +232,9 @@ def _header_body_checks(hdr, scan, name, to_gpst, warnings):
                         "header records inside the body are not applied")
     if scan.event_counts.get(6):
         warnings.append(f"{scan.event_counts[6]} cycle-slip record block(s) (event flag 6) skipped")
+    if scan.lines_before_first_epoch:
+        warnings.append(f"{scan.lines_before_first_epoch} line(s) between the header and the first "
+                        "epoch are not observation records and were ignored")
     if scan.undeclared_systems:
         warnings.append(f"satellites of system(s) {''.join(sorted(scan.undeclared_systems))} have no "
                         "SYS / # / OBS TYPES line in the header and were not read")

@@ -119,6 +119,7 @@ def parse_obs_header(data: bytes, path) -> tuple[dict, int]:
     fields_v2: list[str] = []
     v2_declared = None
     last_sys = None
+    last_scale = None
     for i, line in enumerate(lines[1:], start=1):
         label = line[LABEL].strip()
         body = line[:60]
@@ -176,8 +177,8 @@ def parse_obs_header(data: bytes, path) -> tuple[dict, int]:
                     _fail("# / TYPES OF OBSERV: number of types (columns 1-6) is not an integer",
                           path, i, lines)
             fields_v2 += body[6:60].split()
-        elif label == "SYS / SCALE FACTOR" and body[0] != " ":
-            _scale_factor(hdr, body, path, i, lines)
+        elif label == "SYS / SCALE FACTOR":
+            last_scale = _scale_factor(hdr, body, path, i, lines, last_scale)
 
     if int(version) == 2:
         if v2_declared is None:
@@ -204,15 +205,23 @@ def parse_obs_header(data: bytes, path) -> tuple[dict, int]:
     return hdr, body_offset
 
 
-def _scale_factor(hdr, body, path, i, lines):
-    """SYS / SCALE FACTOR (RINEX 3.05 table A2): A1, 1X, I4 factor, 2X, I2 count, 12(1X, A3)."""
-    try:
-        factor = int(body[2:6])
-    except ValueError:
-        _fail("SYS / SCALE FACTOR: factor (columns 3-6) is not an integer", path, i, lines)
+def _scale_factor(hdr, body, path, i, lines, last):
+    """SYS / SCALE FACTOR (RINEX 3.05 table A2): A1, 1X, I4 factor, 2X, I2 count, 12(1X, A3);
+    a continuation line (blank system) lists more types of the previous line's factor."""
+    if body[0] == " ":
+        if last is None:
+            _fail("SYS / SCALE FACTOR continuation line before any system", path, i, lines)
+        letter, factor = last
+    else:
+        letter = body[0].upper()
+        try:
+            factor = int(body[2:6])
+        except ValueError:
+            _fail("SYS / SCALE FACTOR: factor (columns 3-6) is not an integer", path, i, lines)
     codes = body[10:60].split()
-    per_sys = hdr["scale_factors"].setdefault(body[0].upper(), {})
+    per_sys = hdr["scale_factors"].setdefault(letter, {})
     for code in codes:
         per_sys[code] = factor
-    if not codes:
+    if not codes and body[0] != " ":
         per_sys["*"] = factor  # no list: applies to all types of the system
+    return letter, factor

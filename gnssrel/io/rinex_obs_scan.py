@@ -24,9 +24,16 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from gnssrel.io.rinex_obs_fields import (DecodedFields, Lines, civil_to_datetime64, columns,
-                                         decode_observation_fields, seconds_field_ns, sv_names,
-                                         unsigned_field)
+from gnssrel.io.rinex_obs_fields import (
+    DecodedFields,
+    Lines,
+    civil_to_datetime64,
+    columns,
+    decode_observation_fields,
+    seconds_field_ns,
+    sv_names,
+    unsigned_field,
+)
 
 
 @dataclass
@@ -44,6 +51,8 @@ class Scan:
     event_counts: dict = field(default_factory=dict)    # flag -> number of epoch records
     special_lines: list = field(default_factory=list)   # (line, flag) of flag 2-5 records
     undeclared_systems: set = field(default_factory=set)
+    ends_with_line_end: bool = True     # False: the last line may be cut, its epoch is skipped
+    lines_before_first_epoch: int = 0  # non-blank lines between header and first epoch (ignored)
 
 
 def _record_index(first_line, counts, stride=1):
@@ -84,7 +93,7 @@ def _finish(lines, epoch_idx, flag, t_gpst, data_ok, damaged, rec_owner, names, 
     sel = np.flatnonzero(keep_rec)
     decoded = DecodedFields(decoded.values[sel], None if decoded.lli is None else decoded.lli[sel],
                             None if decoded.ssi is None else decoded.ssi[sel], decoded.bad_row[sel])
-    return Scan(epoch_time=t_gpst[kept], epoch_flag=flag[kept],
+    return Scan(ends_with_line_end=lines.complete, epoch_time=t_gpst[kept], epoch_flag=flag[kept],
                 epoch_line=lines.numbers(epoch_idx[kept]), record_epoch=new_index[rec_owner[sel]],
                 record_sv=names[sel], decoded=decoded, all_data_times=np.array([]),
                 damaged_lines=lines.numbers(epoch_idx[damaged]).tolist(),
@@ -147,6 +156,7 @@ def scan_v3(lines: Lines, fields: dict, letters, start, end, to_gpst, with_flags
     scan.damaged_lines = sorted(scan.damaged_lines + extra_damage)
     scan.all_data_times = all_data_times
     scan.undeclared_systems = undeclared
+    scan.lines_before_first_epoch = _nonblank_before(lines, epoch_idx[0] if epoch_idx.size else n)
     return scan
 
 
@@ -210,7 +220,12 @@ def scan_v2(lines: Lines, codes: list, letters, start, end, to_gpst, with_flags)
     scan = _finish(lines, epoch_idx, f, t_gpst, data, damaged, rec_owner, names, m, n_used,
                    with_flags, special)
     scan.all_data_times = all_data_times
+    scan.lines_before_first_epoch = _nonblank_before(lines, cand[0] if cand.size else n)
     return scan
+
+
+def _nonblank_before(lines: Lines, stop: int) -> int:
+    return int(np.count_nonzero(lines.lengths[:stop]))
 
 
 def _v2_chain(cand: np.ndarray, length: np.ndarray, n: int, complete: bool):

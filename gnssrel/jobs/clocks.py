@@ -11,6 +11,7 @@ from __future__ import annotations
 import logging
 
 from gnssrel.errors import FileFormatError, GnssrelInputError
+from gnssrel.jobs import common
 
 HELP = "compare broadcast and precise satellite clocks; fit the periodic-term convention"
 DESCRIPTION = (
@@ -30,18 +31,12 @@ def add_arguments(parser) -> None:
                         help="precise clocks: SP3 files (e.g. the day before and the day) or RINEX clock files")
     parser.add_argument("--receiver-clocks", metavar="FILE.csv",
                         help="a receiver's own satellite clock corrections (see gnssrel.io.receiver_clocks)")
-    parser.add_argument("--systems", default=None, help="systems to compare, e.g. GER (default: all)")
-    parser.add_argument("--start", help="first epoch, with its scale (e.g. '2020-06-25T00:00 GPST')")
-    parser.add_argument("--end", help="last epoch, with its scale")
-    parser.add_argument("--step", type=float, default=None, metavar="SECONDS",
-                        help="keep only precise epochs on multiples of this interval (e.g. 300)")
+    common.add_systems(parser, default=None)
+    common.add_time_window(parser, None, "keep only precise epochs on multiples of this interval (e.g. 300)")
     parser.add_argument("--datum", choices=("robust", "epoch-median"), default="robust",
                         help="per-epoch datum: alternating median/mean (default) or the plain median")
-    parser.add_argument("--include-unhealthy", action="store_true",
-                        help="also compare satellites whose broadcast records are marked unhealthy")
-    parser.add_argument("--output", metavar="FILE", help="per-satellite, per-epoch table (.csv/.parquet/.nc)")
-    parser.add_argument("--summary", metavar="FILE.json", help="write the summary as JSON")
-    parser.add_argument("--json", action="store_true", help="print the summary as JSON")
+    common.add_include_unhealthy(parser)
+    common.add_outputs(parser, "per-satellite, per-epoch table (.csv, .parquet or .nc)")
 
 
 def precise_kind(path) -> str:
@@ -81,19 +76,13 @@ def read_precise_clocks(paths, systems=None):
 
 
 def run(args) -> dict:
-    from gnssrel import read_navigation
-    from gnssrel.io import writers
-    from gnssrel.timescales import parse_time
-
     if not args.precise and not args.receiver_clocks:
         raise GnssrelInputError("give --precise SP3|CLK files and/or --receiver-clocks FILE.csv")
-    if args.output:
-        writers.check_output_suffix(args.output)
-    systems = list(args.systems.upper()) if args.systems else None
-    start = parse_time(args.start, "GPST") if args.start else None
-    end = parse_time(args.end, "GPST") if args.end else None
-    navs = [read_navigation(p, systems=systems) for p in args.nav]
-    nav = navs[0] if len(navs) == 1 else type(navs[0]).merge(navs)
+    common.check_outputs(args)
+    letters = common.parse_systems(args.systems)
+    systems = list(letters) if letters else None
+    start, end = common.time_window(args)
+    nav, _ = common.read_navigation_files(args.nav, letters)
     summary: dict = {}
     table = None
     if args.precise:
@@ -117,22 +106,7 @@ def run(args) -> dict:
         summary["receiver_clocks"] = check
         if table is None:
             table = rows
-    if args.output:
-        writers.write_table(table, args.output)
-    if args.summary:
-        writers.write_json(summary, args.summary)
-    if args.json:
-        print(writers.to_json_text(summary))
-    elif not getattr(args, "quiet", False):
-        _print_text(summary)
-    return summary
-
-
-def _fmt(value, spec=".2f"):
-    try:
-        return format(value, spec)
-    except (TypeError, ValueError):
-        return "-"
+    return common.emit(args, summary, table, _print_text)
 
 
 def _print_text(summary: dict) -> None:
@@ -140,13 +114,13 @@ def _print_text(summary: dict) -> None:
         print(f"precise minus broadcast clocks ({summary['n_epochs']} epochs, datum: {summary['datum_method']})")
         print(f"{'sys':3} {'n_sat':>5} {'med std ns':>10} {'max std ns':>10} {'k':>7} {'sigma':>6}  convention")
         for letter, e in summary["by_system"].items():
-            print(f"{letter:3} {e['n_sat']:5d} {_fmt(e['median_std_ns']):>10} {_fmt(e['max_std_ns']):>10} "
-                  f"{_fmt(e['convention_k'], '.3f'):>7} {_fmt(e['convention_k_sigma'], '.3f'):>6}  "
+            print(f"{letter:3} {e['n_sat']:5d} {common.fmt(e['median_std_ns']):>10} {common.fmt(e['max_std_ns']):>10} "
+                  f"{common.fmt(e['convention_k'], '.3f'):>7} {common.fmt(e['convention_k_sigma'], '.3f'):>6}  "
                   f"{e['convention']}")
     check = summary.get("receiver_clocks")
     if check:
         print("receiver satellite clocks")
         for letter, e in check["by_system"].items():
-            print(f"{letter:3} {e['n_sat']:5d} k = {_fmt(e['convention_k'], '.3f')} +- "
-                  f"{_fmt(e['convention_k_sigma'], '.3f')} (expected {e['expected_k']:g}): {e['status']}; "
+            print(f"{letter:3} {e['n_sat']:5d} k = {common.fmt(e['convention_k'], '.3f')} +- "
+                  f"{common.fmt(e['convention_k_sigma'], '.3f')} (expected {e['expected_k']:g}): {e['status']}; "
                   f"week crossover: {e['week_crossover']}")

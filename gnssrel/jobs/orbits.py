@@ -17,8 +17,8 @@ import logging
 
 import numpy as np
 
-from gnssrel.constants import SYSTEM_ORDER
-from gnssrel.errors import GnssrelInputError, NoDataError
+from gnssrel.errors import NoDataError
+from gnssrel.jobs import common
 
 HELP = "satellite positions and velocities from broadcast ephemerides; compare with SP3"
 DESCRIPTION = (
@@ -36,62 +36,13 @@ def add_arguments(parser) -> None:
     parser.add_argument("nav", metavar="NAV", nargs="+", help="RINEX navigation file(s) (2.x, 3.x, 4.00)")
     parser.add_argument("--precise", metavar="SP3", nargs="+",
                         help="SP3 orbit files (give the day before too, for interpolation across midnight)")
-    parser.add_argument("--systems", default=SYSTEM_ORDER, metavar="LETTERS",
-                        help=f"systems to include, e.g. GE (default: {SYSTEM_ORDER})")
-    parser.add_argument("--start", metavar="ISO", help="first epoch (default scale GPST; "
-                        "default: the first record of the navigation data)")
-    parser.add_argument("--end", metavar="ISO", help="last epoch (default scale GPST; "
-                        "default: the last record of the navigation data)")
-    parser.add_argument("--step", type=float, default=DEFAULT_STEP_S, metavar="SECONDS",
-                        help=f"grid interval without --precise (default {DEFAULT_STEP_S:g} s)")
-    parser.add_argument("--include-unhealthy", action="store_true",
-                        help="also use records flagged unhealthy and satellites excluded by rule (E14, E18)")
+    common.add_systems(parser)
+    common.add_time_window(parser, DEFAULT_STEP_S,
+                           f"grid interval without --precise (default {DEFAULT_STEP_S:g} s)")
+    common.add_include_unhealthy(parser)
     parser.add_argument("--frame", choices=("ecef", "eci"), default="ecef",
                         help="eci adds inertial positions/velocities (ECEF frozen at the first epoch)")
-    parser.add_argument("--output", metavar="FILE", help="table to write (.csv, .parquet or .nc)")
-    parser.add_argument("--summary", metavar="FILE.json", help="write the summary as JSON")
-    parser.add_argument("--json", action="store_true", help="print the summary as JSON instead of a table")
-
-
-def _check_arguments(args):
-    from gnssrel.io.writers import check_output_suffix
-
-    if args.output:
-        check_output_suffix(args.output)
-    if args.summary:
-        check_output_suffix(args.summary, allowed=(".json",))
-    systems = "".join(args.systems.split()).upper()
-    unknown = sorted(set(systems) - set(SYSTEM_ORDER))
-    if not systems or unknown:
-        raise GnssrelInputError(f"--systems: unknown letters {''.join(unknown) or '(none given)'}; "
-                                f"use some of {SYSTEM_ORDER}")
-    if not args.step > 0:
-        raise GnssrelInputError(f"--step must be a positive number of seconds, not {args.step:g}")
-    return systems
-
-
-def _navigation(paths, systems):
-    from gnssrel.io.rinex_nav import NavigationData, read_navigation
-
-    items = [read_navigation(p, systems=systems) for p in paths]
-    nav = items[0] if len(items) == 1 else NavigationData.merge(items)
-    present = [s for s in systems if s in nav.ephemerides and len(nav.ephemerides[s])]
-    if not present:
-        raise NoDataError(f"no records of systems {systems} in the navigation data", paths[0])
-    return nav, "".join(present)
-
-
-def _span(nav, systems, args):
-    from gnssrel.timescales import parse_time
-
-    refs = [np.asarray(nav.ephemerides[s]["toe" if s != "R" else "toc"]).astype("datetime64[ns]")
-            for s in systems]
-    refs = np.concatenate(refs)
-    start = parse_time(args.start, "GPST") if args.start else refs.min()
-    end = parse_time(args.end, "GPST") if args.end else refs.max()
-    if end < start:
-        raise GnssrelInputError(f"--end ({end}) is before --start ({start})")
-    return start, end
+    common.add_outputs(parser)
 
 
 def _state_table(ds):
@@ -147,12 +98,11 @@ def _print_table(summary):
 
 
 def run(args) -> dict:
-    from gnssrel.io.writers import to_json_text, write_json, write_table
     from gnssrel.orbits.broadcast import broadcast_states, time_grid
 
-    systems = _check_arguments(args)
-    nav, systems = _navigation(args.nav, systems)
-    start, end = _span(nav, systems, args)
+    common.check_outputs(args)
+    nav, systems = common.read_navigation_files(args.nav, common.parse_systems(args.systems))
+    start, end = common.time_window(args, *common.navigation_span(nav, systems))
     if args.precise:
         from gnssrel.io.sp3 import read_sp3
         from gnssrel.orbits.compare import compare_with_precise
@@ -171,7 +121,7 @@ def run(args) -> dict:
                    "n_epochs": int(times.size), "time_scale": "GPST",
                    "include_unhealthy": bool(args.include_unhealthy), **summary}
     else:
-        step_ns = int(round(args.step * 1e9))
+        step_ns = round(args.step * 1e9)
         remainder = int(start.astype("datetime64[ns]").astype(np.int64)) % step_ns
         grid_start = start + np.timedelta64((step_ns - remainder) % step_ns, "ns")  # on multiples of step
         times = time_grid(grid_start, end, args.step)
@@ -179,12 +129,4 @@ def run(args) -> dict:
         table = _netcdf_ready(states) if args.output and args.output.lower().endswith(".nc") \
             else _state_table(states)
         summary = _states_summary(states, times[0] if times.size else start, end)
-    if args.output:
-        write_table(table, args.output)
-    if args.summary:
-        write_json(summary, args.summary)
-    if args.json:
-        print(to_json_text(summary))
-    elif not args.quiet:
-        _print_table(summary)
-    return summary
+    return common.emit(args, summary, table, _print_table)

@@ -13,8 +13,8 @@ import logging
 
 import numpy as np
 
-from gnssrel.constants import SYSTEM_ORDER
 from gnssrel.errors import GnssrelInputError, NoDataError
+from gnssrel.jobs import common
 
 HELP = "relativistic clock terms per satellite and epoch: periodic, J2, rate, proper time"
 DESCRIPTION = (
@@ -37,48 +37,16 @@ def add_arguments(parser) -> None:
     parser.add_argument("nav", metavar="NAV", nargs="+", help="RINEX navigation file(s)")
     parser.add_argument("--precise", metavar="SP3", nargs="+",
                         help="SP3 orbit files: take the states from them (give the day before too)")
-    parser.add_argument("--systems", default=SYSTEM_ORDER, metavar="LETTERS",
-                        help=f"systems to include, e.g. GE (default: {SYSTEM_ORDER})")
-    parser.add_argument("--start", metavar="ISO", help="first epoch (default scale GPST; "
-                        "default: the first reference time of the navigation data)")
-    parser.add_argument("--end", metavar="ISO", help="last epoch (default scale GPST; "
-                        "default: the last reference time of the navigation data)")
-    parser.add_argument("--step", type=float, default=DEFAULT_STEP_S, metavar="SECONDS",
-                        help=f"epoch interval (default {DEFAULT_STEP_S:g} s)")
-    parser.add_argument("--include-unhealthy", action="store_true",
-                        help="also use records flagged unhealthy (e.g. the eccentric Galileo E14, E18)")
-    parser.add_argument("--output", metavar="FILE", help="per-epoch table (.csv, .parquet or .nc)")
-    parser.add_argument("--summary", metavar="FILE.json", help="write the summary as JSON")
-    parser.add_argument("--json", action="store_true", help="print the summary as JSON")
-
-
-def _systems(args) -> str:
-    from gnssrel.io.writers import check_output_suffix
-
-    if args.output:
-        check_output_suffix(args.output)
-    if args.summary:
-        check_output_suffix(args.summary, allowed=(".json",))
-    systems = "".join(args.systems.split()).upper()
-    unknown = sorted(set(systems) - set(SYSTEM_ORDER))
-    if not systems or unknown:
-        raise GnssrelInputError(f"--systems: unknown letters {''.join(unknown) or '(none given)'}; "
-                                f"use some of {SYSTEM_ORDER}")
-    if not args.step > 0:
-        raise GnssrelInputError(f"--step must be a positive number of seconds, not {args.step:g}")
-    return systems
+    common.add_systems(parser)
+    common.add_time_window(parser, DEFAULT_STEP_S)
+    common.add_include_unhealthy(parser)
+    common.add_outputs(parser, "per-epoch table (.csv, .parquet or .nc)")
 
 
 def _epochs(nav, systems, args):
     from gnssrel.orbits.broadcast import time_grid
-    from gnssrel.timescales import parse_time
 
-    refs = np.concatenate([np.asarray(nav.ephemerides[s]["toe" if s != "R" else "toc"])
-                           .astype("datetime64[ns]") for s in systems])
-    start = parse_time(args.start, "GPST") if args.start else refs.min()
-    end = parse_time(args.end, "GPST") if args.end else refs.max()
-    if end < start:
-        raise GnssrelInputError(f"--end ({end}) is before --start ({start})")
+    start, end = common.time_window(args, *common.navigation_span(nav, systems))
     times = time_grid(start, end, args.step)
     if times.size < 3:
         raise GnssrelInputError("fewer than 3 epochs between --start and --end: the proper-time "
@@ -119,16 +87,10 @@ def relativity_table(ds):
 
 
 def run(args) -> dict:
-    from gnssrel.io import writers
-    from gnssrel.io.rinex_nav import NavigationData, read_navigation
     from gnssrel.relativity.engine import relativity_summary, relativity_terms
 
-    systems = _systems(args)
-    items = [read_navigation(p, systems=list(systems)) for p in args.nav]
-    nav = items[0] if len(items) == 1 else NavigationData.merge(items)
-    present = "".join(s for s in systems if s in nav.ephemerides and len(nav.ephemerides[s]))
-    if not present:
-        raise NoDataError(f"no records of systems {systems} in the navigation data", args.nav[0])
+    common.check_outputs(args)
+    nav, present = common.read_navigation_files(args.nav, common.parse_systems(args.systems))
     times = _epochs(nav, present, args)
     states = states_for(args, nav, present, times)
     if not np.isfinite(states["position_ecef_m"].values).any():
@@ -138,15 +100,7 @@ def run(args) -> dict:
     summary.update(start=times[0], end=times[-1], step_s=float(args.step), n_epochs=int(times.size),
                    time_scale="GPST", states="precise (SP3)" if args.precise else "broadcast",
                    include_unhealthy=bool(args.include_unhealthy))
-    if args.output:
-        writers.write_table(relativity_table(ds), args.output)
-    if args.summary:
-        writers.write_json(summary, args.summary)
-    if args.json:
-        print(writers.to_json_text(summary))
-    elif not getattr(args, "quiet", False):
-        _print_text(summary)
-    return summary
+    return common.emit(args, summary, relativity_table(ds) if args.output else None, _print_text)
 
 
 def _print_text(summary: dict) -> None:

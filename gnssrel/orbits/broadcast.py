@@ -40,7 +40,7 @@ _FLOAT_VARIABLES = ("clock_poly_s", "eccentricity", "sqrt_a_sqrt_m", "eccentric_
 def time_grid(start, end, step_s: float) -> np.ndarray:
     """GPST epochs from ``start`` to ``end`` inclusive every ``step_s`` seconds (datetime64[ns])."""
     t0, t1 = as_datetime64(start)[()], as_datetime64(end)[()]
-    step_ns = int(round(float(step_s) * 1e9))
+    step_ns = round(float(step_s) * 1e9)
     if step_ns <= 0:
         raise ValueError(f"time step must be positive, not {step_s!r} s")
     count = int((t1 - t0).astype(np.int64) // step_ns) + 1

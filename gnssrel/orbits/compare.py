@@ -85,7 +85,7 @@ def summarize(table: pd.DataFrame) -> dict:
     used = table[table["n_epochs"] > 0]
     by_system = {}
     for letter, group in used.groupby("system", sort=False):
-        by_system[letter] = {"n_sat": int(len(group)),
+        by_system[letter] = {"n_sat": len(group),
                              "median_rms_3d_m": float(group["rms_3d_m"].median()),
                              "max_rms_3d_m": float(group["rms_3d_m"].max()),
                              "median_coverage": float(group["coverage"].median())}

@@ -1,0 +1,121 @@
+"""What every subcommand shares: the common options, their checks, the navigation input, output.
+
+A job calls :func:`add_time_window`, :func:`add_outputs` etc. in its
+``add_arguments`` and :func:`check_outputs`, :func:`parse_systems`,
+:func:`read_navigation_files`, :func:`time_window` and :func:`emit` in ``run``,
+so option names, defaults, messages and checks are the same in every command.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from gnssrel.constants import SYSTEM_ORDER
+from gnssrel.errors import GnssrelInputError, NoDataError
+
+
+def add_systems(parser, default=SYSTEM_ORDER) -> None:
+    parser.add_argument("--systems", default=default, metavar="LETTERS",
+                        help=f"systems to include, e.g. GE (default: {default or 'all in the files'})")
+
+
+def add_time_window(parser, step_default: float | None = 30.0, step_help: str | None = None) -> None:
+    parser.add_argument("--start", metavar="ISO", help="first epoch (GPST unless a scale follows, "
+                        "e.g. '2020-06-25T06:00 UTC'; default: the start of the data)")
+    parser.add_argument("--end", metavar="ISO", help="last epoch (same form; default: the end of the data)")
+    if step_help is not False:
+        parser.add_argument("--step", type=float, default=step_default, metavar="SECONDS",
+                            help=step_help or f"epoch interval (default {step_default:g} s)")
+
+
+def add_include_unhealthy(parser) -> None:
+    parser.add_argument("--include-unhealthy", action="store_true",
+                        help="also use records flagged unhealthy and satellites excluded by rule "
+                             "(e.g. the eccentric Galileo E14, E18)")
+
+
+def add_outputs(parser, table_help: str = "table to write (.csv, .parquet or .nc)") -> None:
+    parser.add_argument("--output", metavar="FILE", help=table_help)
+    parser.add_argument("--summary", metavar="FILE.json", help="write the summary as JSON")
+    parser.add_argument("--json", action="store_true", help="print the summary as JSON instead of a table")
+
+
+def check_outputs(args) -> None:
+    """Refuse output names we cannot write before any work is done."""
+    from gnssrel.io.writers import check_output_suffix
+
+    if getattr(args, "output", None):
+        check_output_suffix(args.output)
+    if getattr(args, "summary", None):
+        check_output_suffix(args.summary, allowed=(".json",))
+    step = getattr(args, "step", None)
+    if step is not None and not step > 0:
+        raise GnssrelInputError(f"--step must be a positive number of seconds, not {step:g}")
+
+
+def parse_systems(text: str | None) -> str | None:
+    """``"ge"`` -> ``"GE"``; None stays None (all systems); unknown letters are refused."""
+    if text is None:
+        return None
+    systems = "".join(text.split()).upper()
+    unknown = sorted(set(systems) - set(SYSTEM_ORDER))
+    if not systems or unknown:
+        raise GnssrelInputError(f"--systems: unknown letters {''.join(unknown) or '(none given)'}; "
+                                f"use some of {SYSTEM_ORDER}")
+    return "".join(dict.fromkeys(systems))
+
+
+def read_navigation_files(paths, systems: str | None = None):
+    """Read and merge navigation files; return (nav, the requested systems present in it)."""
+    from gnssrel.io.rinex_nav import NavigationData, read_navigation
+
+    wanted = systems or SYSTEM_ORDER
+    items = [read_navigation(p, systems=list(wanted)) for p in paths]
+    nav = items[0] if len(items) == 1 else NavigationData.merge(items)
+    present = "".join(s for s in wanted if s in nav.ephemerides and len(nav.ephemerides[s]))
+    if not present:
+        raise NoDataError(f"no records of systems {wanted} in the navigation data", paths[0])
+    return nav, present
+
+
+def navigation_span(nav, systems: str) -> tuple[np.datetime64, np.datetime64]:
+    """First and last reference time (toe; t_b for GLONASS) of the records, GPST."""
+    refs = np.concatenate([np.asarray(nav.ephemerides[s]["toe" if s != "R" else "toc"])
+                           .astype("datetime64[ns]") for s in systems])
+    return refs.min(), refs.max()
+
+
+def time_window(args, default_start=None, default_end=None):
+    """(start, end) in GPST from --start/--end, falling back to the defaults given."""
+    from gnssrel.timescales import parse_time
+
+    start = parse_time(args.start, "GPST") if getattr(args, "start", None) else default_start
+    end = parse_time(args.end, "GPST") if getattr(args, "end", None) else default_end
+    if start is not None and end is not None and end < start:
+        raise GnssrelInputError(f"--end ({end}) is before --start ({start})")
+    return start, end
+
+
+def emit(args, summary: dict, table=None, print_text=None) -> dict:
+    """Write --output and --summary (atomically), then print JSON or the job's text table."""
+    from gnssrel.io import writers
+
+    if getattr(args, "output", None) and table is not None:
+        writers.write_table(table, args.output)
+    if getattr(args, "summary", None):
+        writers.write_json(summary, args.summary)
+    if getattr(args, "json", False):
+        print(writers.to_json_text(summary))
+    elif print_text is not None and not getattr(args, "quiet", False):
+        print_text(summary)
+    return summary
+
+
+def fmt(value, spec: str = ".2f") -> str:
+    """A number for a text table, or '-' where there is none."""
+    try:
+        if value is None or (isinstance(value, float) and np.isnan(value)):
+            return "-"
+        return format(value, spec)
+    except (TypeError, ValueError):
+        return "-"
