@@ -70,3 +70,19 @@ def test_error_message_is_one_line_with_file_and_line():
     e = FileFormatError("garbled number", "x.rnx", 12, "G01 2020 06 25 00 00 00 1.2E-0X\n")
     assert str(e) == "x.rnx:12: garbled number (line reads 'G01 2020 06 25 00 00 00 1.2E-0X')"
     assert "\n" not in str(e)
+
+
+def test_netcdf_output_keeps_values_and_flattens_attributes(tmp_path):
+    import xarray as xr
+
+    ds = xr.Dataset({"clock_s": (("time", "sv"), np.array([[1.5e-4, np.nan]]))},
+                    coords={"time": np.array(["2020-06-25T00:00"], dtype="datetime64[ns]"),
+                            "sv": ["G01", "E11"]},
+                    attrs={"fields": {"G": ["C1C", "L1C"]}, "receiver": None, "position": [1.0, 2.0, 3.0]})
+    ds["clock_s"].attrs["status_codes"] = {0: "ok"}
+    writers.write_table(ds, tmp_path / "c.nc")
+    back = xr.open_dataset(tmp_path / "c.nc")
+    np.testing.assert_array_equal(back["clock_s"].values, ds["clock_s"].values)
+    assert json.loads(back.attrs["fields"]) == {"G": ["C1C", "L1C"]}
+    assert list(back.attrs["position"]) == [1.0, 2.0, 3.0]
+    back.close()

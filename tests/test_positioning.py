@@ -3,7 +3,7 @@
 import numpy as np
 import pytest
 
-from gnssrel.audit import geodesy
+from gnssrel import geodesy
 from gnssrel.audit.corrections import atmosphere_m, line_of_sight, modelled_pseudorange_m
 from gnssrel.audit.positioning import position_errors_3d_m, single_point_positions
 from gnssrel.constants import C_M_S, GPS

@@ -7,7 +7,7 @@ import pandas as pd
 import pytest
 
 from gnssrel.audit import firmware
-from gnssrel.audit.geodesy import geodetic_to_ecef
+from gnssrel.geodesy import geodetic_to_ecef
 from gnssrel.errors import FileFormatError
 from gnssrel.io.receiver_fixes import read_fixes_csv, read_nmea_gga, read_receiver_fixes
 

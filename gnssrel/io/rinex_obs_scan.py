@@ -55,13 +55,13 @@ class Scan:
     lines_before_first_epoch: int = 0  # non-blank lines between header and first epoch (ignored)
 
 
-def _record_index(first_line, counts, stride=1):
-    """Line indices first_line[k] + stride * j for j < counts[k], concatenated."""
+def _record_index(first_line, counts):
+    """Line indices first_line[k] + j for j < counts[k], concatenated, and their k."""
     counts = np.asarray(counts, dtype=np.int64)
     total = int(counts.sum())
     owner = np.repeat(np.arange(counts.size), counts)
     offset = np.arange(total) - np.repeat(np.cumsum(counts) - counts, counts)
-    return np.asarray(first_line, dtype=np.int64)[owner] + stride * offset, owner
+    return np.asarray(first_line, dtype=np.int64)[owner] + offset, owner
 
 
 def _strip_trailing_blank(lines: Lines) -> int:

@@ -56,7 +56,7 @@ def write_table(table, path: str | Path) -> Path:
         if suffix == ".nc":
             ds = table if hasattr(table, "to_netcdf") and not isinstance(table, pd.DataFrame) \
                 else table.to_xarray()
-            ds.to_netcdf(tmp)
+            _netcdf_safe(ds).to_netcdf(tmp)
         else:
             df = table if isinstance(table, pd.DataFrame) else table.to_dataframe().reset_index()
             if suffix == ".csv":
@@ -64,6 +64,24 @@ def write_table(table, path: str | Path) -> Path:
             else:
                 df.to_parquet(tmp, index=False)
     return path
+
+
+def _netcdf_attr(value):
+    if isinstance(value, (str, int, float, np.integer, np.floating)):
+        return value
+    if isinstance(value, (list, tuple, np.ndarray)) and all(
+            isinstance(v, (int, float, np.integer, np.floating)) for v in np.ravel(value)):
+        return np.asarray(value)
+    return json.dumps(_jsonable(value)) if value is not None else ""
+
+
+def _netcdf_safe(ds):
+    """A copy whose attributes NetCDF can hold: dicts, None and times become JSON text."""
+    out = ds.copy()
+    out.attrs = {k: _netcdf_attr(v) for k, v in ds.attrs.items()}
+    for name in out.variables:
+        out[name].attrs = {k: _netcdf_attr(v) for k, v in ds[name].attrs.items()}
+    return out
 
 
 def _jsonable(obj):

@@ -119,3 +119,15 @@ def fmt(value, spec: str = ".2f") -> str:
         return format(value, spec)
     except (TypeError, ValueError):
         return "-"
+
+
+def fmt_time(t) -> str:
+    """A GPST instant for the terminal: to the second, or to the ns where it has a fraction."""
+    t = np.datetime64(t, "ns")
+    whole = t.astype("datetime64[s]")
+    return str(whole) if whole == t else str(t)
+
+
+def in_system_order(letters) -> list[str]:
+    """System letters in the order gnssrel shows them (G E C J R)."""
+    return sorted(letters, key=lambda s: SYSTEM_ORDER.index(s) if s in SYSTEM_ORDER else 99)

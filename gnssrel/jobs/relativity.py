@@ -105,11 +105,13 @@ def run(args) -> dict:
 
 def _print_text(summary: dict) -> None:
     print(f"relativity from {summary['states']} states, {summary['n_epochs']} epochs "
-          f"({summary['start']} .. {summary['end']} GPST)")
+          f"({common.fmt_time(summary['start'])} .. {common.fmt_time(summary['end'])} GPST)")
     print(f"{'sys':3} {'sats':>4} {'rate':>12} {'us/day':>8} {'max periodic ns':>16} {'max icd-state ns':>17}")
-    for letter, row in summary["by_system"].items():
+    for letter in common.in_system_order(summary["by_system"]):
+        row = summary["by_system"][letter]
         sats = [v for s, v in summary["satellites"].items() if s[0] == letter]
         periodic = max(v["periodic_max_abs_ns"] for v in sats)
-        diff = max(v["icd_vs_state_max_diff_ns"] for v in sats)
+        diffs = [v["icd_vs_state_max_diff_ns"] for v in sats if v["icd_vs_state_max_diff_ns"] is not None]
+        diff = max(diffs) if diffs else None
         print(f"{letter:3} {row['satellites']:4d} {row['median_rate_total']:12.5e} "
-              f"{row['median_us_per_day_total']:8.3f} {periodic:16.2f} {diff:17.3f}")
+              f"{row['median_us_per_day_total']:8.3f} {periodic:16.2f} {common.fmt(diff, '.3f'):>17}")

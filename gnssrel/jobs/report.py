@@ -96,8 +96,8 @@ def analyse(nav_paths, precise_paths=(), obs_paths=(), fixes_paths=(), clocks_pa
     from gnssrel.relativity.engine import relativity_summary, relativity_terms
     from gnssrel.report.content import ReceiverFindings, ReportContent
 
-    nav_paths, precise_paths, obs_paths = list(nav_paths), list(precise_paths), list(obs_paths)
-    fixes_paths, clocks_paths = list(fixes_paths), list(clocks_paths)
+    nav_paths, precise_paths, obs_paths = ([str(p) for p in group] for group in (nav_paths, precise_paths, obs_paths))
+    fixes_paths, clocks_paths = [str(p) for p in fixes_paths], [str(p) for p in clocks_paths]
     for flag, given in (("--receiver-fixes", fixes_paths), ("--receiver-clocks", clocks_paths)):
         if given and len(given) != len(obs_paths):
             raise GnssrelInputError(f"{flag}: give one file per --obs log ({len(obs_paths)}), "

@@ -31,7 +31,7 @@ from __future__ import annotations
 import numpy as np
 import xarray as xr
 
-from gnssrel.constants import C_M_S, GM_EARTH_IERS_M3_S2, SECONDS_PER_DAY
+from gnssrel.constants import C_M_S, GM_EARTH_IERS_M3_S2, SECONDS_PER_DAY, SYSTEM_ORDER
 from gnssrel.relativity import rules
 from gnssrel.relativity.clock_terms import (
     j2_amplitude_s,
@@ -76,6 +76,8 @@ def relativity_terms(states: xr.Dataset) -> xr.Dataset:
         big_e = _element(states, "eccentric_anomaly_rad", osc["eccentric_anomaly_rad"])
         incl = _element(states, "inclination_rad", osc["inclination_rad"])
         u = _element(states, "argument_of_latitude_rad", osc["argument_of_latitude_rad"])
+        from_broadcast = np.isfinite(states["eccentricity"].values.astype(float)) \
+            if "eccentricity" in states else np.zeros(valid.shape, dtype=bool)
         icd = f_sv * e * sqrt_a * np.sin(big_e)                       # IS-GPS-200 20.3.3.3.3.1
         state = periodic_state_s(pos, vel)
         j2 = j2_periodic_s(sqrt_a**2, incl, u)                        # Kouba 2004, derived here
@@ -90,6 +92,7 @@ def relativity_terms(states: xr.Dataset) -> xr.Dataset:
            "periodic_inclination_rad": incl}
     for name, value in new.items():
         out[name] = (dims, np.where(valid, value, np.nan))
+    out["elements_from_broadcast"] = (dims, from_broadcast & valid)
     out["user_applies_periodic"] = ("sv", rules.per_satellite(svs, "user_applies_periodic"))
     out.attrs["relativity_rate_reference"] = "TT (clock on the geoid); positive = satellite clock fast"
     return out
@@ -135,6 +138,8 @@ def relativity_summary(ds: xr.Dataset) -> dict:
              "j2_periodic_s", "rate_total", "proper_time_offset_s", "periodic_eccentricity",
              "periodic_semi_major_axis_m", "periodic_inclination_rad")
     arrays = {n: ds[n].transpose("time", "sv").values for n in names}
+    broadcast_elements = ds["elements_from_broadcast"].transpose("time", "sv").values \
+        if "elements_from_broadcast" in ds else np.ones(arrays["rate_total"].shape, dtype=bool)
     satellites = {}
     for k, sv in enumerate(str(s) for s in ds["sv"].values):
         col = {n: a[:, k] for n, a in arrays.items()}
@@ -153,7 +158,13 @@ def relativity_summary(ds: xr.Dataset) -> dict:
             "eccentricity": ecc, "semi_major_axis_m": a,
             "periodic_amplitude_ns": abs(rule.f_s_sqrt_m) * ecc * np.sqrt(a) * 1e9,
             "periodic_max_abs_ns": _max_abs_ns(col["periodic_icd_s"]),
-            "icd_vs_state_max_diff_ns": _max_abs_ns(col["periodic_diff_s"]),
+            # Only where the specification form used broadcast elements: with osculating
+            # ones (GLONASS, epochs without a record) it equals the state form by construction.
+            "icd_vs_state_max_diff_ns": _max_abs_ns(col["periodic_diff_s"][broadcast_elements[:, k]])
+            if broadcast_elements[:, k].any() else None,
+            "periodic_elements": "broadcast" if broadcast_elements[:, k].all() or
+            broadcast_elements[:, k][np.isfinite(col["rate_total"])].all() else
+            ("osculating" if not broadcast_elements[:, k].any() else "broadcast where available, else osculating"),
             "j2_amplitude_ns": float(j2_amplitude_s(a, incl)) * 1e9,
             "rate_velocity": secular["rate_velocity"], "rate_gravity": secular["rate_gravity"],
             "rate_total": total,
@@ -174,7 +185,7 @@ def relativity_summary(ds: xr.Dataset) -> dict:
             entry[key] = _max_abs_ns(decompose_runs(t_s, off - closed, labels)["periodic_s"])
         satellites[sv] = entry
     by_system = {}
-    for letter in sorted({sv[0] for sv in satellites}):
+    for letter in sorted({sv[0] for sv in satellites}, key=lambda s: (SYSTEM_ORDER + s).index(s)):
         totals = np.array([v["rate_total"] for s, v in satellites.items() if s[0] == letter])
         by_system[letter] = {"median_rate_total": float(np.nanmedian(totals)),
                              "median_us_per_day_total": float(np.nanmedian(totals)) * US_PER_DAY,

@@ -12,7 +12,7 @@ import numpy as np
 from matplotlib.lines import Line2D
 
 from gnssrel.report.layout import ReportFigure, as_plot_times, gpst_axis, new_figure, panel_letter, systems_in
-from gnssrel.report.palette import HYPOTHESIS_LABELS, HYPOTHESIS_STYLES, INK, system_colour, system_name
+from gnssrel.report.palette import HYPOTHESIS_LABELS, HYPOTHESIS_STYLES, OWN, system_colour, system_name
 
 FIT_HYPOTHESES = ("applied", "omitted", "reversed", "doubled")
 
@@ -52,8 +52,8 @@ def audit_figure(receiver) -> ReportFigure | None:
                 handles.append(Line2D([], [], label=HYPOTHESIS_LABELS[name], **style))
         if receiver.fixes is not None and receiver.fixes_error_3d_m is not None:
             ax_pos.plot(as_plot_times(receiver.fixes["time"].to_numpy()), receiver.fixes_error_3d_m,
-                        linestyle="none", marker=".", markersize=2.6, color=INK, zorder=4)
-            handles.append(Line2D([], [], linestyle="none", marker="o", markersize=3.5, color=INK,
+                        linestyle="none", marker="o", markersize=2.2, color=OWN, zorder=4)
+            handles.append(Line2D([], [], linestyle="none", marker="o", markersize=3.5, color=OWN,
                                   label=f"{receiver.name}'s own fixes"))
         ax_pos.set_ylabel("3-D position error (m)")
         ax_pos.set_title(f"{receiver.name}: positions per epoch against the reference")
@@ -78,7 +78,7 @@ def _caption(receiver, fits) -> str:
     fix_text = ""
     if fixes and fixes.get("closest"):
         d = fixes["median_distance_m"]
-        fix_text = (f" The receiver's own fixes (ink dots) lie closest to '{fixes['closest']}' "
+        fix_text = (f" The receiver's own fixes (vermilion dots) lie closest to '{fixes['closest']}' "
                     f"(median distance {d[fixes['closest']]:.2f} m, margin {fixes['margin_m']:.2f} m over the "
                     "next hypothesis).")
     ks = "; ".join(f"{system_name(k)} k = {v['k']:.3f} ± {v['sigma']:.3f}" for k, v in fits.items())

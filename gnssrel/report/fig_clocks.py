@@ -13,7 +13,7 @@ from matplotlib.lines import Line2D
 from gnssrel.clocks.convention import CANDIDATES
 from gnssrel.report.layout import (ReportFigure, as_plot_times, gpst_axis, new_figure, panel_letter,
                                    system_handles, systems_in)
-from gnssrel.report.palette import INK, REFERENCE, system_colour, system_name
+from gnssrel.report.palette import OWN, REFERENCE, system_colour, system_name
 
 
 def convention_rows(content) -> list[dict]:
@@ -58,25 +58,25 @@ def clocks_figure(content) -> ReportFigure | None:
     y = np.arange(len(rows))[::-1]
     for c_name, c in CANDIDATES.items():
         ax_k.axvline(c, color=REFERENCE, linewidth=0.8, linestyle=(0, (4, 2)), zorder=1)
-        ax_k.text(c, len(rows) - 0.35, {0: "0 excludes", 1: "1 includes", -1: "−1 reversed",
-                                        2: "2 doubled"}[int(c)], rotation=0, ha="center", va="bottom",
+        ax_k.text(c, len(rows) - 0.35, {0: "0\nexcludes", 1: "1\nincludes", -1: "−1\nreversed",
+                                        2: "2\ndoubled"}[int(c)], rotation=0, ha="center", va="bottom",
                   fontsize=7, color=REFERENCE)
     for yy, row in zip(y, rows):
         colour = system_colour(row["system"])
         own = row["series"] != "precise product"
         ax_k.errorbar(row["k"], yy, xerr=3 * row["sigma"] if np.isfinite(row["sigma"]) else None,
-                      fmt="D" if own else "o", markersize=5.5, color=colour,
-                      markeredgecolor=INK if own else colour, ecolor=colour, capsize=3, zorder=3)
+                      fmt="D" if own else "o", markersize=5.5, color=colour, markeredgewidth=1.4 if own else 1.0,
+                      markeredgecolor=OWN if own else colour, ecolor=colour, capsize=3, zorder=3)
     ax_k.set_yticks(y)
     ax_k.set_yticklabels([f"{r['series']} · {system_name(r['system'])}" for r in rows], fontsize=7.5)
-    ax_k.set_ylim(-0.7, len(rows) + 0.3)
+    ax_k.set_ylim(-1.6, len(rows) + 0.6)
     ax_k.set_xlim(-1.5, 2.5)
     ax_k.set_xlabel("factor k of the periodic term (dimensionless)")
     ax_k.grid(axis="x", color="white")
     ax_k.set_title("Convention fit")
     ax_k.legend(handles=[Line2D([], [], linestyle="none", marker="o", color="#555555", label="precise product"),
-                         Line2D([], [], linestyle="none", marker="D", color="#555555", markeredgecolor=INK,
-                                label="receiver's own table")],
+                         Line2D([], [], linestyle="none", marker="D", color="#555555", markeredgecolor=OWN,
+                                markeredgewidth=1.4, label="receiver's own table")],
                 loc="lower right", fontsize=7)
     panel_letter(ax_k, "b" if ax_series.get_visible() else "a")
     listing = "; ".join(f"{r['series']} {r['system']}: k = {r['k']:.3f} ± {r['sigma']:.3f} ({r['convention']})"
@@ -88,7 +88,7 @@ def clocks_figure(content) -> ReportFigure | None:
         "the broadcast side excludes the periodic term, as IGS-style products do. (b) The fitted factor k of "
         "the periodic term F e √A sin E in each clock series and system (X − broadcast polynomial = offset + "
         "drift per satellite + k dt_r), with bars of ±3σ (σ: jackknife over satellites, honest about "
-        "time-correlated residuals; bars narrower than the marker are hidden by it). Dashed lines: the "
+        "time-correlated residuals; bars narrower than the marker are hidden by it; receivers' own tables as diamonds edged in vermilion). Dashed lines: the "
         "candidates 0 (excludes the term), 1 (includes it), −1 (reversed), 2 (doubled). "
         f"{listing}. A correct receiver's own table includes the term (k = 1; IS-GPS-200 20.3.3.3.3.1).")
     return ReportFigure("clock_convention", "Clocks: precise vs broadcast, convention", caption, fig)

@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from gnssrel.report.layout import (ReportFigure, as_plot_times, gpst_axis, label_line_end, new_figure,
+from gnssrel.report.layout import (ReportFigure, as_plot_times, gpst_axis, label_line_ends, new_figure,
                                    panel_letter, system_handles, systems_in)
 from gnssrel.report.palette import system_colour
 
@@ -40,7 +40,6 @@ def periodic_figure(content) -> ReportFigure:
         if strong:
             top.plot(x[::STATE_FORM_EVERY], state[::STATE_FORM_EVERY, k], linestyle="none", marker="o",
                      markersize=3.2, markerfacecolor="white", markeredgecolor=colour, markeredgewidth=0.9)
-            label_line_end(top, x, icd[:, k], svs[k], colour)
         bottom.plot(x, diff[:, k], color=colour, linewidth=0.8, alpha=0.8)
     letters = systems_in(svs)
     from matplotlib.lines import Line2D
@@ -54,6 +53,8 @@ def periodic_figure(content) -> ReportFigure:
     top.set_title("Periodic relativistic clock term of every satellite")
     ymax = np.nanmax(np.abs(icd)) if np.isfinite(icd).any() else 1.0
     top.set_ylim(-1.12 * ymax, 1.45 * ymax)        # head-room for the legend
+    top.set_xlim(x[0], x[-1] + 0.045 * (x[-1] - x[0]))   # room for the names at the line ends
+    label_line_ends(top, x, [(svs[k], icd[:, k], system_colour(svs[k])) for k in labelled])
     bottom.axhline(0.0, color="#9AA0A8", linewidth=0.7)
     bottom.set_ylabel("specification − state form (ns)")
     gpst_axis(bottom, times)

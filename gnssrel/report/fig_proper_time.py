@@ -71,7 +71,7 @@ def proper_time_figure(content) -> ReportFigure | None:
         Line2D([], [], color="#555555", linestyle="none", marker="o", markerfacecolor="white",
                label="F e √A sin E minus its best-fit line")], loc="upper left", ncols=2)
     span = np.nanmax(np.abs(ax_periodic.get_ylim()))
-    ax_periodic.set_ylim(-span, 1.35 * span)
+    ax_periodic.set_ylim(-span, 1.25 * span)
     ax_resid.axhline(0.0, color="#9AA0A8", linewidth=0.7)
     ax_resid.set_ylabel("integral − closed form (ns)")
     ax_resid.legend(handles=[

@@ -42,8 +42,8 @@ def rates_figure(content) -> ReportFigure:
         top.scatter(x, values, marker=marker, s=26 if filled else 20, c=colours if filled else "white",
                     edgecolors=colours, linewidths=0.9, zorder=3)
     top.axhline(NOMINAL_US_PER_DAY, color=REFERENCE, linewidth=1.0, linestyle=(0, (5, 2)), zorder=2)
-    top.text(len(svs) - 0.5, NOMINAL_US_PER_DAY + 1.2, f"IS-GPS-200 factory offset {NOMINAL_US_PER_DAY:.3f} µs/day",
-             color=REFERENCE, fontsize=7.5, ha="right", va="bottom")
+    top.text(-0.4, NOMINAL_US_PER_DAY - 1.6, f"IS-GPS-200 factory offset {NOMINAL_US_PER_DAY:.3f} µs/day",
+             color=REFERENCE, fontsize=7.5, ha="left", va="top")
     top.axhline(0.0, color="#9AA0A8", linewidth=0.7)
     top.set_ylabel("clock rate vs TT (µs/day)")
     top.set_title("Rate of each satellite clock against a clock on the geoid")
@@ -53,7 +53,7 @@ def rates_figure(content) -> ReportFigure:
     handles += [Line2D([], [], linestyle="none", marker="s", color=system_colour(s), label=system_name(s))
                 for s in systems_in(svs)]
     handles.append(Line2D([], [], color=REFERENCE, linestyle=(0, (5, 2)), label="IS-GPS-200 3.3.1.1"))
-    top.legend(handles=handles, ncols=4, loc="center left", bbox_to_anchor=(0.0, 0.62))
+    top.legend(handles=handles, ncols=4, loc="center left", bbox_to_anchor=(0.0, 0.40))
     top.set_ylim(-14, 58)
     _satellite_ticks(top, svs)
 

@@ -75,10 +75,22 @@ def systems_in(svs) -> list[str]:
     return [s for s in order if s in present] + sorted(present - set(order))
 
 
-def label_line_end(ax, x, y, text, colour) -> None:
-    """Write ``text`` just right of the last finite point of a line."""
-    y = np.asarray(y, float)
-    ok = np.flatnonzero(np.isfinite(y))
-    if ok.size:
-        ax.annotate(text, (x[ok[-1]], y[ok[-1]]), xytext=(3, 0), textcoords="offset points",
-                    fontsize=7.5, color=colour, va="center", ha="left", annotation_clip=False)
+def label_line_ends(ax, x, lines, min_gap_fraction: float = 0.045) -> None:
+    """Name lines just right of their last finite point, spread apart so labels never overlap.
+
+    ``lines``: (text, y values, colour) tuples; ``min_gap_fraction`` of the y range apart.
+    """
+    ends = []
+    for text, y, colour in lines:
+        y = np.asarray(y, float)
+        ok = np.flatnonzero(np.isfinite(y))
+        if ok.size:
+            ends.append([y[ok[-1]], x[ok[-1]], text, colour, y[ok[-1]]])
+    lo, hi = ax.get_ylim()
+    gap = min_gap_fraction * (hi - lo)
+    ends.sort(key=lambda e: e[0])
+    for a, b in zip(ends, ends[1:]):        # push upwards until each is a gap above the one below
+        b[0] = max(b[0], a[0] + gap)
+    pad = 0.004 * (x[-1] - x[0]) if len(x) > 1 else 0.0
+    for y_text, x_end, text, colour, _ in ends:
+        ax.text(x_end + pad, y_text, text, fontsize=7.5, color=colour, va="center", ha="left", clip_on=False)

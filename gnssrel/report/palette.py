@@ -8,8 +8,8 @@ check is ``tests/test_report.py::test_palette_survives_colour_vision_deficiency`
 The lightness also differs from system to system, so the figures read in grey print.
 
 The same colour means the same system in every figure; gnssrel's computed
-hypotheses are drawn in greys with their own dash patterns; what a receiver
-itself wrote (its fixes, its clock table) is drawn as ink markers.
+hypotheses are drawn in ink, greys and violet with their own dash patterns; what a
+receiver itself wrote (its fixes, its clock table) is drawn with vermilion markers.
 """
 
 from __future__ import annotations
@@ -25,7 +25,8 @@ SYSTEM_COLOURS = {
 }
 SYSTEM_NAMES = {"G": "GPS", "E": "Galileo", "C": "BeiDou", "R": "GLONASS", "J": "QZSS"}
 INK = "#111111"
-"""What a receiver itself produced (its fixes, its clock table)."""
+OWN = "#C8412B"
+"""What a receiver itself produced (its fixes, its clock table): vermilion, no system uses it."""
 MUTED = "#8A8F98"
 PAPER = "#FFFFFF"
 PANEL = "#F7F6F2"
@@ -34,10 +35,10 @@ REFERENCE = "#5A2A82"
 """Published reference lines (e.g. the IS-GPS-200 factory offset)."""
 
 HYPOTHESIS_STYLES = {
-    "applied": {"color": "#2B2B2B", "linestyle": "-", "linewidth": 1.6},
-    "omitted": {"color": "#6E6E6E", "linestyle": (0, (6, 2)), "linewidth": 1.3},
-    "reversed": {"color": "#9C9C9C", "linestyle": (0, (1.5, 1.5)), "linewidth": 1.4},
-    "doubled": {"color": "#505050", "linestyle": (0, (6, 2, 1.5, 2)), "linewidth": 1.2},
+    "applied": {"color": "#111111", "linestyle": "-", "linewidth": 1.5},
+    "omitted": {"color": "#5A2A82", "linestyle": (0, (6, 2)), "linewidth": 1.4},
+    "reversed": {"color": "#9AA0A8", "linestyle": (0, (1.5, 1.5)), "linewidth": 1.4},
+    "doubled": {"color": "#5B5B5B", "linestyle": (0, (6, 2, 1.5, 2)), "linewidth": 1.1},
     "sagnac-omitted": {"color": "#B9B9B9", "linestyle": (0, (10, 3)), "linewidth": 1.1},
 }
 HYPOTHESIS_LABELS = {

@@ -44,6 +44,11 @@ def combined_k(fits: dict) -> tuple[float, float]:
     return float((w * ks).sum() / w.sum()), float(1.0 / np.sqrt(w.sum()))
 
 
+def _plain(value: float, digits: int = 3) -> float:
+    """Rounded, without the minus sign of a negative zero (-0.000 reads as a fault sign)."""
+    return round(float(value), digits) + 0.0
+
+
 def _clock_convention(check: dict | None) -> tuple[str | None, dict]:
     if not check:
         return None, {}
@@ -89,7 +94,7 @@ def receiver_verdict(name: str, audit_summary: dict | None, clock_check: dict | 
     if fixes and fixes.get("closest"):
         parts.append(f"fixes closest to '{fixes['closest']}', margin {margin:.2f} m")
     if clock_check:
-        ks = ", ".join(f"{s} {e['convention_k']:.2f} ± {max(e['convention_k_sigma'], 0.005):.2f}"
+        ks = ", ".join(f"{s} {_plain(e['convention_k']):.3f} ± {abs(_plain(e['convention_k_sigma'])):.3f}"
                        for s, e in clock_check["by_system"].items())
         parts.append(f"clock table k = {ks}")
     detail = f" ({'; '.join(parts)})" if parts else ""

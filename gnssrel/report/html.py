@@ -1,0 +1,116 @@
+"""The self-contained HTML report: figures as base64 PNG, tables, captions, caution, references."""
+
+from __future__ import annotations
+
+import base64
+import html
+import math
+from importlib import resources
+
+import numpy as np
+
+CAUTION = (
+    "gnssrel is an analysis tool. It is not for navigation and not for safety-of-life use. Its results "
+    "can be wrong; where they matter, defer to the interface specifications, to local codes and to "
+    "licensed surveying practice.")
+
+REFERENCES = (
+    "IS-GPS-200 (Navstar GPS Space Segment / Navigation User Interfaces), sections 3.3.1.1 and 20.3.3.3.3.1.",
+    "Galileo Open Service Signal-In-Space Interface Control Document (OS SIS ICD), satellite clock correction.",
+    "BeiDou Navigation Satellite System Signal In Space Interface Control Document (BDS-SIS-ICD), "
+    "satellite clock correction.",
+    "GLONASS Interface Control Document (navigational radiosignal in bands L1, L2), clock and ephemeris terms.",
+    "IERS Conventions (2010), IERS Technical Note 36, G. Petit and B. Luzum (eds.), chapters 10 and 11.",
+    "N. Ashby (2003), Relativity in the Global Positioning System, Living Reviews in Relativity 6, 1.",
+    "J. Kouba (2004), Improved relativistic transformations in GPS, GPS Solutions 8, 170-180.",
+)
+
+
+def _css() -> str:
+    return resources.files("gnssrel.report").joinpath("report.css").read_text(encoding="utf-8")
+
+
+def _fmt(value) -> str:
+    if value is None:
+        return "–"
+    if isinstance(value, (bool, np.bool_)):
+        return "yes" if value else "no"
+    if isinstance(value, (int, np.integer)):
+        return str(int(value))
+    if isinstance(value, (float, np.floating)):
+        v = float(value)
+        if math.isnan(v):
+            return "–"
+        if v != 0 and (abs(v) < 1e-3 or abs(v) >= 1e6):
+            return f"{v:.4g}"
+        return f"{v:.3f}" if abs(v) < 100 else f"{v:.1f}"
+    return html.escape(str(value))
+
+
+def table_html(df, max_rows: int = 40) -> str:
+    cols = list(df.columns)
+    head = "".join(f"<th>{html.escape(str(c))}</th>" for c in cols)
+    body = []
+    for row in df.head(max_rows).itertuples(index=False):
+        cells = []
+        for v in row:
+            cls = ' class="text"' if isinstance(v, str) else ""
+            cells.append(f"<td{cls}>{_fmt(v)}</td>")
+        body.append("<tr>" + "".join(cells) + "</tr>")
+    more = f'<p class="csv">{len(df) - max_rows} more rows in the CSV.</p>' if len(df) > max_rows else ""
+    return f"<table><thead><tr>{head}</tr></thead><tbody>{''.join(body)}</tbody></table>{more}"
+
+
+def _finding(r) -> str:
+    v = r.verdict
+    cls, tag = {True: ("faulty", "Fault"), False: ("correct", "Consistent"), None: ("", "Not judged")}[v.get("faulty")]
+    return f'<li class="{cls}"><span class="tag">{tag}.</span>{html.escape(v.get("verdict", r.name))}</li>'
+
+
+def render_html(content, figures: list[tuple], tables: dict, shown_tables=()) -> str:
+    """The page.  ``figures``: (ReportFigure, png_bytes, {format: file name}); ``tables``: stem ->
+    (heading, DataFrame); ``shown_tables``: the stems printed in full (the others are linked)."""
+    from gnssrel import __version__
+
+    t0, t1 = content.time_span
+    parts = [f"<!DOCTYPE html><html lang='en'><head><meta charset='utf-8'>"
+             f"<meta name='viewport' content='width=device-width, initial-scale=1'>"
+             f"<title>{html.escape(content.title)}</title><style>{_css()}</style></head><body><main>",
+             "<header class='masthead'>",
+             f"<h1>{html.escape(content.title)}</h1>",
+             f"<div class='meta'>{str(t0)[:19]} to {str(t1)[:19]} GPST · "
+             f"{content.relativity.sizes['sv']} satellites · gnssrel {__version__}</div></header>",
+             f"<div class='caution'><strong>Caution.</strong> {html.escape(CAUTION)}</div>"]
+    if content.description:
+        parts.append(f"<p class='lead'>{html.escape(content.description)}</p>")
+    if content.receivers:
+        parts.append("<h2 id='findings'>Findings</h2><ul class='findings'>")
+        parts += [_finding(r) for r in content.receivers]
+        parts.append("</ul>")
+    for note in content.notes:
+        parts.append(f"<p class='csv'>Note: {html.escape(note)}</p>")
+    parts.append("<nav class='contents'><ol>")
+    parts += [f"<li><a href='#{f.key}'>{html.escape(f.title)}</a></li>" for f, _, _ in figures]
+    parts.append("<li><a href='#tables'>Tables</a></li><li><a href='#references'>References</a></li></ol></nav>")
+    parts.append("<h2 id='figures'>Figures</h2>")
+    for n, (fig, png, files) in enumerate(figures, start=1):
+        data = base64.b64encode(png).decode("ascii")
+        links = " · ".join(f"<a href='{html.escape(name)}'>{fmt.upper()}</a>" for fmt, name in files.items())
+        parts.append(f"<figure id='{fig.key}'><h3>Figure {n}. {html.escape(fig.title)}</h3>"
+                     f"<img alt='{html.escape(fig.title)}' src='data:image/png;base64,{data}'>"
+                     f"<figcaption><b>Figure {n}.</b> {html.escape(fig.caption)}"
+                     f"<span class='files'>Files: {links}</span></figcaption></figure>")
+    parts.append("<h2 id='tables'>Tables</h2>")
+    for stem, (heading, df) in tables.items():
+        link = f"<a href='{stem}.csv'>{stem}.csv</a>"
+        if stem in shown_tables:
+            parts.append(f"<h3>{html.escape(heading)}</h3>{table_html(df)}<p class='csv'>As CSV: {link}</p>")
+        else:
+            parts.append(f"<p class='csv'>{html.escape(heading)} ({len(df)} rows): {link}</p>")
+    parts.append("<h2 id='references'>References</h2><ol class='references'>")
+    parts += [f"<li>{html.escape(ref)}</li>" for ref in REFERENCES]
+    parts.append("</ol>")
+    inputs = "; ".join(f"{k}: {', '.join(str(p) for p in v)}" for k, v in content.inputs.items() if v)
+    parts.append(f"<footer>Inputs — {html.escape(inputs)}. Times are GPST throughout. "
+                 f"Written by gnssrel {__version__}.</footer></main></body></html>")
+    return "\n".join(parts)
