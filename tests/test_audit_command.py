@@ -1,10 +1,11 @@
-"""`gnssrel audit` on the command line: bad input gives one line and exit 2; a real run writes its outputs."""
+"""`gnssrel audit` on the command line: bad input gives one line and exit 2; a real run writes its outputs;
+the invented demo scenario (sample_logs/README.md, scenario.json) gives the verdicts it was built with."""
 
 import json
 
 import numpy as np
 import pytest
-from conftest import refdata_file
+from conftest import SAMPLE_LOGS, refdata_file
 
 from gnssrel.cli import main
 
@@ -15,7 +16,7 @@ NAV = "2024-124/NYA100NOR_S_20241240000_01D_GN.rnx.gz"
 @pytest.mark.parametrize("extra, message", [
     (["--position", "1,2"], "--position"),
     (["--position", "0,0,0"], "--position"),
-    (["--precise", "x.sp3"], "--precise"),
+    (["--precise", str(SAMPLE_LOGS / "KVA0DEMFIN_20251621000_03H_30S_CLK.CLK")], "--precise: give at least one SP3"),
     (["--output", "table.xlsx"], "unknown output format"),
 ])
 def test_bad_options_exit_2_with_one_line(tmp_path, capsys, extra, message):
@@ -47,3 +48,54 @@ def test_summary_keys_and_outputs_on_real_log(tmp_path, capsys):
     import pandas as pd
     assert len(pd.read_csv(positions)) == 37
     assert np.isfinite(pd.read_csv(table)["troposphere_m"]).all()
+
+
+DEMO_NAV = "KVRP00ZZZ_R_20251621000_03H_MN.rnx"
+DEMO_SP3 = "KVA0DEMFIN_20251620830_06H_15M_ORB.SP3"
+DEMO_CLK = "KVA0DEMFIN_20251621000_03H_30S_CLK.CLK"
+
+
+def _demo_audit(receiver, capsys, *extra):
+    code = main(["audit", str(SAMPLE_LOGS / f"{receiver}00ZZZ_R_20251621000_03H_30S_MO.rnx"),
+                 str(SAMPLE_LOGS / DEMO_NAV), "--receiver-fixes", str(SAMPLE_LOGS / f"{receiver}_fixes.nmea"),
+                 "--receiver-clocks", str(SAMPLE_LOGS / f"{receiver}_satellite_clocks.csv"), "--json", *extra])
+    assert code == 0
+    return json.loads(capsys.readouterr().out)
+
+
+@pytest.mark.parametrize("receiver, hypothesis, clock_status", [
+    ("KVRP", "applied", "as specified"),                  # scenario.json: correct firmware
+    ("SLMB", "omitted", "fault: periodic term missing"),  # scenario.json: firmware omits the term
+])
+@pytest.mark.parametrize("products", ["broadcast", "precise"])
+def test_demo_scenario_verdicts(capsys, receiver, hypothesis, clock_status, products):
+    extra = ["--precise", str(SAMPLE_LOGS / DEMO_SP3), str(SAMPLE_LOGS / DEMO_CLK)] if products == "precise" else []
+    s = _demo_audit(receiver, capsys, "--step", "60", *extra)
+    assert s["clock_source"] == products
+    # The raw logs carry the true clocks (README: "k near 1 in both logs"); GPS has G15 (e = 0.047).
+    g = s["relativity_k"]["G"]
+    assert g["k"] == pytest.approx(1.0, abs=max(3 * g["sigma"], 0.03)) and g["status"] == "consistent"
+    assert g["rms_m"]["applied"] < 0.7 * g["rms_m"]["omitted"]
+    assert s["receiver_fixes"]["closest"] == hypothesis and s["receiver_fixes"]["margin_m"] > 5.0
+    assert {e["status"] for e in s["receiver_clocks"]["by_system"].values()} == {clock_status}
+    assert f"closest to '{hypothesis}'" in s["receiver_verdict"] and clock_status in s["receiver_verdict"]
+    # scenario.json sites: the header position is the true one; its median fix error about 0.8 m
+    assert s["position"]["median_error_3d_m"] < 2.0 < 10.0 < s["position"]["median_error_3d_m_without_periodic"]
+
+
+@pytest.mark.refdata
+def test_glonass_on_a_rinex_4_log(capsys):
+    pytest.importorskip("gnssrel.io.rinex_obs", reason="the fast observation reader is not available")
+    obs = refdata_file("2022-159/KMS300DNK_R_20221591000_01H_30S_MO.crx")
+    nav = refdata_file("2022-159/KMS300DNK_R_20221591000_01H_MN.rnx.gz")
+    assert main(["audit", str(obs), str(nav), "--systems", "R", "--json"]) == 0
+    s = json.loads(capsys.readouterr().out)
+    r = s["relativity_k"]["R"]
+    # GLONASS ICD convention (REFERENCE-CHECKS 3.3, NAVI, V): tau_n, gamma_n hold the periodic term.
+    assert r["expected_k"] == 0.0
+    # 10 minutes cannot show a ~2 ns term with an 11-h period: the fit must say so, not guess.
+    assert r["status"].startswith("undetermined")
+    assert r["rms_m"]["applied"] < 1.5                 # ionosphere-free code residuals, metre level
+    # 6 GLONASS satellites alone: broadcast orbits ~3 m (REFERENCE-CHECKS 3.2), header good to metres
+    assert s["position"]["median_error_3d_m"] < 10.0
+    assert s["position"]["median_error_3d_m"] == s["position"]["median_error_3d_m_without_periodic"]

@@ -33,6 +33,7 @@ def audit():
 def test_periodic_factor_is_one(audit):
     fit = audit.k_fits["G"]
     assert fit["k"] == pytest.approx(1.0, abs=0.05)             # acceptance: 1 +- 0.05
+    assert fit["expected_k"] == 1.0 and fit["status"] == "consistent"
     assert 0.008 < fit["sigma"] < 0.04                           # jackknife ~0.017 (independent computation)
     assert fit["sigma"] > 2 * fit["sigma_formal"]                # the formal sigma is too small
     rms = fit["rms_m"]
@@ -55,10 +56,32 @@ def test_per_epoch_position_error_and_the_periodic_term(audit):
 
 
 def test_corrections_table_has_physical_values(audit):
-    df = audit.corrections
+    from gnssrel.orbits.selection import STATUS_NOT_TRANSMITTED
+
+    all_rows = audit.corrections
+    chosen = all_rows["ephemeris_row"] >= 0
+    # At 00:00:00 the day's file holds no record transmitted yet (selection rule 2): those rows
+    # are NaN with their reason; every other observation has a record.
+    assert (all_rows.loc[~chosen, "state_status"] == STATUS_NOT_TRANSMITTED).all()
+    assert (all_rows.loc[~chosen, "time"] == np.datetime64("2024-05-03T00:00:00")).all()
+    df = all_rows[chosen]
+    assert df["satellite_x_m"].notna().all() and (df["state_status"] == 0).all()
     assert np.abs(df["periodic_s"]).max() < 60e-9                # GPS e < 0.025: |F e sqrt(A)| < 57 ns
     assert np.abs(df["sagnac_m"]).max() < 40.0                   # REFERENCE-CHECKS 7: <= ~40 m
     assert df["shapiro_m"].between(0.012, 0.019).all()           # REFERENCE-CHECKS 7: 12.7-18.7 mm
     above = df[df["elevation_deg"] > 10]
     assert above["troposphere_m"].between(2.2, 14.0).all()       # 2.3 m zenith, ~13 m at 10 deg
     assert (df["code"] == "C1C+C2W").all()
+
+
+def test_transmit_time_satisfies_the_pseudorange_equation(audit):
+    # t_tx = t_rx - P/c - dt_sv(t_tx) (IS-GPS-200 20.3.3.3.3.1, dt_sv with the periodic term); the
+    # transmit time is kept to 1 ns, so the equation holds to 1 ns plus rounding.
+    from gnssrel.constants import C_M_S
+    from gnssrel.timescales import seconds_between
+
+    df = audit.corrections[audit.corrections["ephemeris_row"] >= 0]
+    flight = seconds_between(df["time"].to_numpy(), df["transmit_time"].to_numpy())
+    dt_sv = df["satellite_clock_s"].to_numpy() + df["periodic_s"].to_numpy()
+    assert np.abs(flight - (df["pseudorange_m"].to_numpy() / C_M_S + dt_sv)).max() < 1e-9
+    assert not df["periodic_in_clock"].any() and (df["clock_source"] == "broadcast").all()

@@ -65,3 +65,18 @@ def test_group_delays_follow_the_reference_signal_of_the_clock():
     assert io.group_delay_m("G", ("C1C",), rows)[0] == pytest.approx(C_M_S * 5e-9)
     f1, f3 = 1561.098e6, 1268.52e6
     assert io.group_delay_m("C", ("C2I", "C6I"), rows)[0] == pytest.approx(C_M_S * 2e-9 * f1**2 / (f1**2 - f3**2))
+
+
+def test_glonass_fdma_carriers_and_the_channel_free_combination():
+    # GLONASS ICD 2008 ed. 5.1, 3.3.1.4 (values as given in the task; section number M):
+    # L1 = 1602 + k 0.5625 MHz, L2 = 1246 + k 0.4375 MHz.  Derived: f1/f2 = 9/7 for every k.
+    k = np.arange(-7, 7)
+    f1, f2 = io.glonass_frequency_hz("1", k), io.glonass_frequency_hz("2", k)
+    assert io.glonass_frequency_hz("1", 1) == 1602.5625e6 and io.glonass_frequency_hz("2", -7) == 1242.9375e6
+    assert np.allclose(f1 / f2, 9.0 / 7.0, rtol=0, atol=1e-15)
+    # the combination with channel-0 frequencies equals the one with any channel's own
+    p1, p2 = 2.1e7 + 3.0, 2.1e7 + 8.0
+    ref = io.ionosphere_free(p1, p2, io.frequency_hz("R", "C1P"), io.frequency_hz("R", "C2P"))
+    assert np.allclose(io.ionosphere_free(p1, p2, f1, f2), ref, rtol=0, atol=1e-7)
+    assert ref == pytest.approx((81 * p1 - 49 * p2) / 32, abs=1e-7)
+    assert io.choose_codes("R", {"C1C", "C1P", "C2P", "C2C"}) == ("C1P", "C2P")

@@ -37,7 +37,7 @@ def _synthetic(n_epoch=40, n_sat=9, periodic_factor=1.0, seed=1, noise_m=0.0):
     epoch = np.concatenate(epochs)
     obs = {"epoch": epoch, "sv": np.concatenate(svs), "system": np.full(n, "G"),
            "time": times[epoch], "satellite_ecef_m": np.concatenate(sats),
-           "frequency_hz": np.full(n, np.nan), "clock_poly_s": rng.normal(0, 1e-4, n),
+           "frequency_hz": np.full(n, np.nan), "satellite_clock_s": rng.normal(0, 1e-4, n),
            "periodic_s": rng.uniform(-40e-9, 40e-9, n), "j2_s": np.zeros(n), "group_delay_m": np.zeros(n),
            "pseudorange_m": np.zeros(n)}
     clock_m = 1.0e4 + 3.0 * np.arange(n_epoch)

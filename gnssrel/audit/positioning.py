@@ -9,7 +9,8 @@ Python loop over epochs.
 * Weights: sigma^2(el) = sigma0^2 (1 + 1 / sin^2 el), sigma0 = 1 m (common practice).
 * Elevation mask ``elevation_mask_deg`` (default 10 deg), applied once the
   position has converged to within a kilometre (the first steps start from the
-  Earth's centre, where elevations mean nothing).
+  Earth's centre, where elevations mean nothing); troposphere, ionosphere and
+  Shapiro delay are modelled from then on too.
 * Outlier rejection: after convergence, per epoch, the largest residual is
   dropped when it exceeds max(``reject_m``, 5 a-priori sigma of its weight) and
   the epoch solved again (up to four rounds); an epoch needs one more
@@ -65,7 +66,9 @@ class _Problem:
         obs, ep = self.obs, self.epoch
         rx = state[ep, :3]
         near_obs = near[ep]
-        los = line_of_sight(obs, rx, sagnac=self.terms["sagnac"])
+        with np.errstate(divide="ignore", invalid="ignore"):   # Shapiro at the Earth's centre
+            los = line_of_sight(obs, rx, sagnac=self.terms["sagnac"])
+        los["shapiro_m"] = np.where(near_obs, los["shapiro_m"], 0.0)   # as the atmosphere: once near
         tropo, iono = atmosphere_m(obs, rx, los["elevation_rad"], los["azimuth_rad"], self.iono_header)
         tropo = np.where(near_obs, tropo, 0.0)
         iono = np.where(near_obs & np.isfinite(iono), iono, 0.0)
@@ -111,7 +114,7 @@ def single_point_positions(obs: dict, n_epoch: int, times, terms=None, elevation
     problem = _Problem(obs, n_epoch, resolve_terms(terms), elevation_mask_deg, ionosphere_header)
     epoch = problem.epoch
     active = np.isfinite(obs["pseudorange_m"]) & np.all(np.isfinite(obs["satellite_ecef_m"]), axis=1) \
-        & np.isfinite(obs["clock_poly_s"])
+        & np.isfinite(obs["satellite_clock_s"])
     state = np.zeros((n_epoch, problem.n_unknown))
     near = np.zeros(n_epoch, bool)
     if initial_ecef_m is not None:

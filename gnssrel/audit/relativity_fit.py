@@ -123,11 +123,21 @@ def fit_periodic_factor(residual_m, periodic_m, epoch, sv, reject_sigma: float =
             "n_epochs": int(np.unique(epoch).size)}
 
 
+DETERMINED_SIGMA = 0.25
+"""A k whose jackknife sigma exceeds this cannot tell "applied" (1) from "omitted" (0) at 4 sigma:
+reported, with status "undetermined"."""
+
+
 def relativity_k(corrections, elevation_mask_deg: float = 10.0, systems=None, jackknife: bool = True) -> dict:
     """Per-system k fit from an :func:`gnssrel.audit.corrections.observation_corrections` table.
 
     Uses ionosphere-free codes only (``code`` containing ``+``): a single-frequency code
-    carries the ionosphere, whose model error would leak into k.
+    carries the ionosphere, whose model error would leak into k.  Each system's entry adds
+    ``expected_k``: 1 where the user adds the periodic term to the clock used, 0 where that
+    clock already holds it (GLONASS broadcast, ``periodic_in_clock``; GLONASS ICD convention,
+    REFERENCE-CHECKS 3.3), and ``status``: "consistent" (|k - expected| <= 3 sigma),
+    "inconsistent", or "undetermined: ..." (sigma above :data:`DETERMINED_SIGMA` or too few
+    satellites for a jackknife).
     """
     from gnssrel.constants import C_M_S
 
@@ -138,11 +148,25 @@ def relativity_k(corrections, elevation_mask_deg: float = 10.0, systems=None, ja
             continue
         m = ((df["system"] == system) & (df["elevation_deg"] >= elevation_mask_deg)
              & df["code"].str.contains("+", regex=False)).to_numpy()
+        m = m & np.isfinite(df["satellite_clock_s"].to_numpy())
         if m.sum() < 20:
             continue
         d = df.loc[m]
         y = (d["pseudorange_m"] - d["geometric_range_m"] - d["shapiro_m"] - d["troposphere_m"]
              - d["group_delay_m"] + C_M_S * d["satellite_clock_s"]).to_numpy()
-        out[system] = fit_periodic_factor(y, C_M_S * d["periodic_s"].to_numpy(),
-                                          d["time"].to_numpy(), d["sv"].to_numpy(), jackknife=jackknife)
+        fit = fit_periodic_factor(y, C_M_S * d["periodic_s"].to_numpy(),
+                                  d["time"].to_numpy(), d["sv"].to_numpy(), jackknife=jackknife)
+        fit["expected_k"] = 0.0 if d["periodic_in_clock"].to_numpy().all() else 1.0
+        fit["status"] = _status(fit)
+        out[system] = fit
     return out
+
+
+def _status(fit: dict) -> str:
+    sigma = fit["sigma"]
+    if not np.isfinite(sigma):
+        return f"undetermined: {fit['n_sat']} satellites, too few for a jackknife sigma"
+    if sigma > DETERMINED_SIGMA:
+        return (f"undetermined: sigma {sigma:.2f} > {DETERMINED_SIGMA} (the periodic term is too small "
+                f"or too short-lived in these data to be separated from the clock and offsets)")
+    return "consistent" if abs(fit["k"] - fit["expected_k"]) <= 3.0 * sigma else "inconsistent"

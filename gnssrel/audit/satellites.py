@@ -1,163 +1,185 @@
-"""Broadcast satellite position and clock at arbitrary (per-observation) transmit times.
+"""Satellite position and clock at each observation's own transmit time.
 
-The receiver audit needs each satellite at its own transmit time, which differs
-per observation; so it picks one ephemeris record per observation and evaluates
-the Keplerian model there (not on a fixed grid as ``gnssrel.orbits`` does).
+The audit needs every satellite at the transmit time of each observation, which
+differs per observation, so it evaluates the shared orbit and clock stages on
+flat arrays ``(n,)`` (positions ``(n, 3)``) instead of on a fixed grid:
 
-* Record choice (common practice): the healthy record of the satellite whose
-  ``toe`` is nearest to the time, within ``max_age_s`` (2 h: half the GPS 4-h
-  fit interval, IS-GPS-200 20.3.4.4).
-* Orbit: IS-GPS-200 Table 20-IV (GPS, QZSS), the same algorithm in Galileo OS
-  SIS ICD 5.1.1 and BDS-SIS-ICD-B1I 3.0 5.2.4.12 (with the extra rotation of the
-  geostationary satellites), each with its own mu and Earth rotation rate from
-  ``gnssrel.constants``.
-* Clock: a_f0 + a_f1 (t - toc) + a_f2 (t - toc)^2, IS-GPS-200 20.3.3.3.3.1
-  (same form in the other ICDs); the periodic relativistic term
-  F e sqrt(A) sin E of the same section is returned separately.
+* broadcast record: :func:`gnssrel.orbits.selection.select_ephemerides` (the
+  rules per system as data: fit interval, "already transmitted", health),
+  chosen at the receive time tag (the transmit time is 0.07-0.13 s earlier,
+  which cannot change the choice except at a record's very edge);
+* broadcast orbit: :func:`gnssrel.orbits.keplerian.kepler_states` (G, E, C, J)
+  and :func:`gnssrel.orbits.glonass.glonass_states` (R);
+* broadcast clock polynomial: :func:`gnssrel.clocks.broadcast.broadcast_clock_s`;
+* precise orbit: :func:`gnssrel.orbits.precise.precise_states`, one satellite
+  at a time at its own transmit times; precise clock from the SP3 or a RINEX
+  clock file via :func:`gnssrel.clocks.interpolation.interpolate_clock`;
+* periodic term: :func:`gnssrel.relativity.clock_terms.periodic_icd_s`
+  (F e sqrt(A) sin E from the broadcast elements, IS-GPS-200 20.3.3.3.3.1) where
+  elements exist, else :func:`~gnssrel.relativity.clock_terms.periodic_state_s`
+  (-2 r.v / c^2: GLONASS, precise states); J2 term:
+  :func:`~gnssrel.relativity.clock_terms.j2_periodic_s`.
 
-All arrays are 1-D over observations, ``(n,)``, positions ``(n, 3)``.
+Whether the clock of the source already holds the periodic term is a rule
+(:data:`gnssrel.clocks.broadcast.POLYNOMIAL_HOLDS_PERIODIC`: GLONASS broadcast
+yes, the others no); precise clocks exclude it for every system (IGS convention,
+refdata README; the demo products likewise).
+
+Transmit time (common practice; IS-GPS-200 20.3.3.3.3.1 for the clock): a code
+pseudorange is c (t_rx - t_tx^sv), t_rx the receiver's time tag and t_tx^sv the
+satellite clock reading at transmission, so t_tx = t_rx - P/c - dt_sv(t_tx),
+iterated for dt_sv (the satellite's full clock, periodic term included).  This
+needs no receiver position and holds whatever the receiver clock error.
 """
 
 from __future__ import annotations
 
 import numpy as np
 
-from gnssrel.constants import BEIDOU_GEO_PRNS, C_M_S, SYSTEMS
-from gnssrel.timescales import seconds_between, week_crossover
+from gnssrel.clocks.broadcast import POLYNOMIAL_HOLDS_PERIODIC, broadcast_clock_s
+from gnssrel.clocks.interpolation import interpolate_clock
+from gnssrel.constants import C_M_S, SYSTEMS
+from gnssrel.orbits.glonass import ACCELERATION_COLUMNS, STATE_COLUMNS, glonass_states
+from gnssrel.orbits.keplerian import ELEMENT_COLUMNS, kepler_states
+from gnssrel.orbits.precise import STATUS_OK, STATUS_OUTSIDE, precise_states
+from gnssrel.orbits.selection import select_ephemerides
+from gnssrel.relativity.clock_terms import (j2_periodic_s, osculating_elements, periodic_icd_s,
+                                            periodic_state_s)
 
-MAX_EPHEMERIS_AGE_S = 7_200.0
+TRANSMIT_ITERATIONS = 3
+"""dt_sv is below 1 ms, so each step shrinks the error by a factor ~1e-3: 3 are plenty."""
 
-_KEPLER_COLUMNS = ("sqrt_a_sqrt_m", "eccentricity", "mean_anomaly_rad", "delta_n_rad_per_s",
-                   "perigee_argument_rad", "cuc_rad", "cus_rad", "crc_m", "crs_m", "cic_rad",
-                   "cis_rad", "inclination_rad", "idot_rad_per_s", "omega0_rad", "omega_dot_rad_per_s",
-                   "clock_bias_s", "clock_drift_s_per_s", "clock_drift_rate_s_per_s2")
+_GLONASS_COLUMNS = ("toc",) + STATE_COLUMNS + ACCELERATION_COLUMNS
+_OPTIONAL_KEPLER_COLUMNS = ("toe_sow_s", "is_geo")
 
 
-def select_records(ephemerides, sv, t_gpst, max_age_s: float = MAX_EPHEMERIS_AGE_S,
-                   include_unhealthy: bool = False) -> np.ndarray:
-    """Row index (into ``ephemerides``) of the record used for each (sv, time); -1 when none.
+def offset_times(t_gpst, offset_s) -> np.ndarray:
+    """``t_gpst + offset_s`` as datetime64[ns] (offset rounded to 1 ns: 4 um of satellite motion);
+    NaN offsets give NaT."""
+    offset = np.asarray(offset_s, dtype=float)
+    ns = np.where(np.isfinite(offset), np.round(offset * 1e9), 0.0).astype("int64")
+    out = np.asarray(t_gpst).astype("datetime64[ns]") + ns.astype("timedelta64[ns]")
+    return np.where(np.isfinite(offset), out, np.datetime64("NaT"))
 
-    ``ephemerides``: one system's table as in the data model (columns ``sv``, ``toe``,
-    ``health``); ``sv``, ``t_gpst``: arrays ``(n,)``.
+
+def take_rows(table, column, rows) -> np.ndarray:
+    """Column values of the chosen rows; NaN/NaT/False where ``rows`` is -1."""
+    values = table[column].to_numpy()
+    ok = rows >= 0
+    if values.dtype.kind == "M" or column in ("toe", "toc"):
+        out = np.full(rows.shape, np.datetime64("NaT"), dtype="datetime64[ns]")
+        out[ok] = values.astype("datetime64[ns]")[rows[ok]]
+    elif values.dtype == bool:
+        out = np.zeros(rows.shape, bool)
+        out[ok] = values[rows[ok]]
+    else:
+        out = np.full(rows.shape, np.nan)
+        out[ok] = values.astype(float)[rows[ok]]
+    return out
+
+
+def choose_records(table, system: str, sv, t_gpst, include_unhealthy: bool = False):
+    """(row, status) per observation from :func:`select_ephemerides` on the grid of the
+    observations' distinct times and satellites; ``sv``, ``t_gpst``: ``(n,)``."""
+    names, sv_idx = np.unique(np.asarray(sv), return_inverse=True)
+    epochs, t_idx = np.unique(np.asarray(t_gpst).astype("datetime64[ns]"), return_inverse=True)
+    rows, status = select_ephemerides(table, list(names), epochs, system, include_unhealthy)
+    return rows[t_idx.ravel(), sv_idx.ravel()], status[t_idx.ravel(), sv_idx.ravel()]
+
+
+def _j2_term_s(radius_or_a_m, inclination_rad, argument_of_latitude_rad, system):
+    const = SYSTEMS[system]
+    return j2_periodic_s(radius_or_a_m, inclination_rad, argument_of_latitude_rad,
+                         gm=const.gm_m3_s2, j2=const.j2, a_earth=const.ellipsoid_a_m)
+
+
+def transmit_states(state_at, t_rx, pseudorange_m) -> dict:
+    """Iterate t_tx = t_rx - P/c - dt_sv(t_tx).  ``state_at(t_gpst)`` returns a dict with
+    ``clock_total_s`` (the satellite's full clock offset) among its arrays.  The result is
+    the last dict plus ``transmit_offset_s`` (t_tx - t_rx, float seconds)."""
+    offset = -np.asarray(pseudorange_m, float) / C_M_S
+    dt_sv = np.zeros(offset.shape)
+    for _ in range(TRANSMIT_ITERATIONS):
+        state = state_at(offset_times(t_rx, offset - dt_sv))
+        dt_sv = state["clock_total_s"]
+    state["transmit_offset_s"] = offset - dt_sv
+    return state
+
+
+def broadcast_at_transmit(table, system: str, sv, t_rx, pseudorange_m, include_unhealthy: bool = False) -> dict:
+    """Broadcast state and clock of each observation at its transmit time.
+
+    Returns ``(n,)`` arrays (vectors ``(n, 3)``): ``position_ecef_m`` (Earth-fixed frame of
+    the transmit time), ``velocity_ecef_m_per_s``, ``satellite_clock_s`` (the polynomial),
+    ``periodic_s``, ``periodic_in_clock`` (bool: the polynomial holds it), ``j2_s``,
+    ``clock_total_s``, ``transmit_offset_s``, ``ephemeris_row``, ``status``
+    (:data:`gnssrel.orbits.selection.STATUS_CODES`).
+    """
+    rows, status = choose_records(table, system, sv, t_rx, include_unhealthy)
+    holds = POLYNOMIAL_HOLDS_PERIODIC[system]
+    if system == "R":
+        rec = {c: take_rows(table, c, rows) for c in _GLONASS_COLUMNS}
+    else:
+        wanted = ELEMENT_COLUMNS + tuple(c for c in _OPTIONAL_KEPLER_COLUMNS if c in table)
+        rec = {c: take_rows(table, c, rows) for c in wanted}
+
+    def state_at(t):
+        if system == "R":
+            st = glonass_states(rec, t)
+            st["periodic_s"] = periodic_state_s(st["position_ecef_m"], st["velocity_ecef_m_per_s"])
+            a_m = st["radius_m"]                       # e ~ 0.001: the radius stands for a
+        else:
+            st = kepler_states(rec, t, system)
+            st["periodic_s"] = periodic_icd_s(rec["eccentricity"], rec["sqrt_a_sqrt_m"],
+                                              st["eccentric_anomaly_rad"], system)
+            a_m = rec["sqrt_a_sqrt_m"] ** 2
+        st["j2_s"] = _j2_term_s(a_m, st["inclination_rad"], st["argument_of_latitude_rad"], system)
+        st["satellite_clock_s"] = broadcast_clock_s(table, rows, t, system)
+        st["clock_total_s"] = st["satellite_clock_s"] + (0.0 if holds else st["periodic_s"])
+        return st
+
+    st = transmit_states(state_at, np.asarray(t_rx), pseudorange_m)
+    st.update(ephemeris_row=rows, status=status, periodic_in_clock=np.full(rows.shape, holds))
+    return st
+
+
+def precise_at_transmit(orbits, clocks, system: str, sv, t_rx, pseudorange_m) -> dict:
+    """Precise state and clock of each observation at its transmit time (keys as
+    :func:`broadcast_at_transmit`, without ``ephemeris_row``).
+
+    ``orbits``: a :func:`gnssrel.io.sp3.read_sp3` Dataset; ``clocks``: a Dataset with
+    ``clock_s`` (time, sv), the SP3 itself or a RINEX clock file.  Positions are the
+    product's (for real products: the centre of mass; no antenna offset is applied).
     """
     sv = np.asarray(sv)
-    t = np.asarray(t_gpst, dtype="datetime64[ns]")
-    out = np.full(sv.shape, -1, dtype=np.int64)
-    eph_sv = ephemerides["sv"].to_numpy()
-    toe = ephemerides["toe"].to_numpy().astype("datetime64[ns]")
-    usable = np.ones(len(ephemerides), bool) if include_unhealthy else \
-        (ephemerides["health"].to_numpy() == 0)
-    for name in np.unique(sv):                      # a loop over satellites, vectorized over times
-        rows = np.flatnonzero((eph_sv == name) & usable)
-        if rows.size == 0:
-            continue
-        rows = rows[np.argsort(toe[rows], kind="stable")]
-        mine = np.flatnonzero(sv == name)
-        pos = np.searchsorted(toe[rows], t[mine])
-        lo, hi = np.clip(pos - 1, 0, rows.size - 1), np.clip(pos, 0, rows.size - 1)
-        d_lo = np.abs(seconds_between(t[mine], toe[rows[lo]]))
-        d_hi = np.abs(seconds_between(t[mine], toe[rows[hi]]))
-        best = np.where(d_hi < d_lo, rows[hi], rows[lo])
-        ok = np.minimum(d_lo, d_hi) <= max_age_s
-        out[mine] = np.where(ok, best, -1)
-    return out
-
-
-def record_arrays(ephemerides, rows) -> dict[str, np.ndarray]:
-    """The Keplerian and clock columns of the chosen rows (NaN where ``rows`` is -1)."""
-    rows = np.asarray(rows)
-    valid = rows >= 0
-    take = np.where(valid, rows, 0)
-    out = {}
-    for name in _KEPLER_COLUMNS:
-        col = ephemerides[name].to_numpy(dtype=float)[take] if len(ephemerides) else np.zeros(rows.shape)
-        out[name] = np.where(valid, col, np.nan)
-    for name in ("toe", "toc"):
-        col = ephemerides[name].to_numpy().astype("datetime64[ns]")[take] if len(ephemerides) \
-            else np.zeros(rows.shape, "datetime64[ns]")
-        out[name] = np.where(valid, col, np.datetime64("NaT"))
-    return out
-
-
-def kepler_position(rec: dict, t_gpst, system: str, sv=None, offset_s=0.0):
-    """(ECEF position ``(n, 3)`` in the frame of ``t_gpst``, eccentric anomaly, argument of
-    latitude, inclination), the angles ``(n,)`` in radians.  The time is ``t_gpst + offset_s``
-    (the float offset keeps sub-nanosecond transmit times).
-
-    IS-GPS-200 Table 20-IV; ``sv`` names are needed for BeiDou GEO satellites.
-    """
+    orbit_svs = set(np.asarray(orbits["sv"].values).astype(str))
+    clock_svs = set(np.asarray(clocks["sv"].values).astype(str))
+    clock_times = clocks["time"].values
+    groups = {name: np.flatnonzero(sv == name) for name in np.unique(sv)}
     const = SYSTEMS[system]
-    mu, omega_e = const.gm_m3_s2, const.omega_earth_rad_s
-    tk = week_crossover(seconds_between(t_gpst, rec["toe"]) + offset_s)
-    a = rec["sqrt_a_sqrt_m"] ** 2
-    n = np.sqrt(mu / a**3) + rec["delta_n_rad_per_s"]             # corrected mean motion
-    m = rec["mean_anomaly_rad"] + n * tk
-    e = rec["eccentricity"]
-    ecc = m.copy()
-    for _ in range(30):                                            # Kepler's equation, Newton steps
-        step = (ecc - e * np.sin(ecc) - m) / (1.0 - e * np.cos(ecc))
-        ecc = ecc - step
-        if np.nanmax(np.abs(step), initial=0.0) < 1e-14:
-            break
-    nu = np.arctan2(np.sqrt(1.0 - e**2) * np.sin(ecc), np.cos(ecc) - e)
-    phi = nu + rec["perigee_argument_rad"]
-    s2, c2 = np.sin(2 * phi), np.cos(2 * phi)
-    u = phi + rec["cus_rad"] * s2 + rec["cuc_rad"] * c2
-    r = a * (1.0 - e * np.cos(ecc)) + rec["crs_m"] * s2 + rec["crc_m"] * c2
-    inc = rec["inclination_rad"] + rec["idot_rad_per_s"] * tk + rec["cis_rad"] * s2 + rec["cic_rad"] * c2
-    xp, yp = r * np.cos(u), r * np.sin(u)
-    toe_sow = _seconds_of_week(rec["toe"], system)
-    geo = np.zeros(tk.shape, bool)
-    if system == "C" and sv is not None:
-        geo = np.isin(np.char.ljust(np.asarray(sv, dtype=str), 3), [f"C{p:02d}" for p in BEIDOU_GEO_PRNS])
-    # MEO/IGSO: longitude of the ascending node in the Earth-fixed frame.
-    omega = rec["omega0_rad"] + (rec["omega_dot_rad_per_s"] - omega_e) * tk - omega_e * toe_sow
-    # BDS GEO (BDS-SIS-ICD-B1I 3.0 5.2.4.12): node in inertial-like frame, then R_Z(w tk) R_X(-5 deg).
-    omega_geo = rec["omega0_rad"] + rec["omega_dot_rad_per_s"] * tk - omega_e * toe_sow
-    omega = np.where(geo, omega_geo, omega)
-    co, so, ci, si = np.cos(omega), np.sin(omega), np.cos(inc), np.sin(inc)
-    x = xp * co - yp * ci * so
-    y = xp * so + yp * ci * co
-    z = yp * si
-    if geo.any():
-        x, y, z = _beidou_geo_rotation(x, y, z, omega_e * tk, geo)
-    return np.stack([x, y, z], axis=-1), ecc, u, inc
 
+    def state_at(t):
+        n = t.shape[0]
+        pos, vel, clock = np.full((n, 3), np.nan), np.full((n, 3), np.nan), np.full(n, np.nan)
+        for name, idx in groups.items():            # a loop over satellites, vectorized over times
+            if name in orbit_svs:
+                ds = precise_states(orbits, t[idx], svs=[name])
+                pos[idx] = ds["position_ecef_m"].values[:, 0]
+                vel[idx] = ds["velocity_ecef_m_per_s"].values[:, 0]
+            if name in clock_svs:
+                clock[idx] = interpolate_clock(clock_times, clocks["clock_s"].sel(sv=name).values, t[idx])
+        periodic = periodic_state_s(pos, vel)
+        # Inertial velocity in the axes of the instant (v + omega x r) for the osculating i and u.
+        w = const.omega_earth_rad_s
+        v_inertial = vel + w * np.stack([-pos[:, 1], pos[:, 0], np.zeros(n)], axis=-1)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            el = osculating_elements(pos, v_inertial, const.gm_m3_s2)
+        j2 = _j2_term_s(el["semi_major_axis_m"], el["inclination_rad"], el["argument_of_latitude_rad"], system)
+        return {"position_ecef_m": pos, "velocity_ecef_m_per_s": vel, "satellite_clock_s": clock,
+                "periodic_s": periodic, "j2_s": j2, "clock_total_s": clock + periodic}
 
-def _beidou_geo_rotation(x, y, z, angle, geo):
-    f = np.radians(-5.0)
-    yg = y * np.cos(f) + z * np.sin(f)
-    zg = -y * np.sin(f) + z * np.cos(f)
-    ca, sa = np.cos(angle), np.sin(angle)
-    xr = x * ca + yg * sa
-    yr = -x * sa + yg * ca
-    return np.where(geo, xr, x), np.where(geo, yr, y), np.where(geo, zg, z)
-
-
-def _seconds_of_week(t_gpst, system: str) -> np.ndarray:
-    """Seconds of week of GPST times counted on the system's own scale (BDT is GPST - 14 s)."""
-    from gnssrel.timescales import GPS_EPOCH, SECONDS_PER_WEEK
-    shift = 14.0 if system == "C" else 0.0
-    s = seconds_between(t_gpst, GPS_EPOCH) - shift
-    return np.mod(s, SECONDS_PER_WEEK)
-
-
-def clock_polynomial_s(rec: dict, t_gpst, offset_s=0.0) -> np.ndarray:
-    """Broadcast clock polynomial a_f0 + a_f1 dt + a_f2 dt^2 at ``t_gpst + offset_s``
-    (IS-GPS-200 20.3.3.3.3.1)."""
-    dt = week_crossover(seconds_between(t_gpst, rec["toc"]) + offset_s)
-    return rec["clock_bias_s"] + rec["clock_drift_s_per_s"] * dt + rec["clock_drift_rate_s_per_s2"] * dt**2
-
-
-def periodic_term_s(rec: dict, ecc_anomaly_rad, system: str) -> np.ndarray:
-    """Periodic relativistic clock term F e sqrt(A) sin E (IS-GPS-200 20.3.3.3.3.1)."""
-    return SYSTEMS[system].f_s_sqrt_m * rec["eccentricity"] * rec["sqrt_a_sqrt_m"] * np.sin(ecc_anomaly_rad)
-
-
-def j2_clock_term_s(rec: dict, argument_of_latitude_rad, inclination_rad, system: str) -> np.ndarray:
-    """J2 periodic clock term -(3/2) J2 (a_E^2 / (a c^2)) sqrt(mu/a) sin^2 i sin 2u
-    (Kouba 2004, GPS Solutions 8:170-180; status M), u the argument of latitude."""
-    const = SYSTEMS[system]
-    a = rec["sqrt_a_sqrt_m"] ** 2
-    return (-1.5 * const.j2 * const.ellipsoid_a_m**2 / (a * C_M_S**2) * np.sqrt(const.gm_m3_s2 / a)
-            * np.sin(inclination_rad) ** 2 * np.sin(2.0 * argument_of_latitude_rad))
+    st = transmit_states(state_at, np.asarray(t_rx), pseudorange_m)
+    ok = np.all(np.isfinite(st["position_ecef_m"]), axis=1) & np.isfinite(st["satellite_clock_s"])
+    st["status"] = np.where(ok, STATUS_OK, STATUS_OUTSIDE).astype(np.int8)   # orbits.precise codes
+    st["periodic_in_clock"] = np.zeros(ok.shape, bool)
+    return st

@@ -7,7 +7,11 @@
     observations {n_epochs, n_sat, systems}
     relativity_k {<system>: {k, sigma, rms_m {applied, omitted, reversed, doubled}}}
     position {reference, median_error_3d_m, median_error_3d_m_without_periodic}
-    receiver_verdict (a string when receiver fixes were given, else None)
+    receiver_verdict (a string when receiver fixes or a receiver clock table were given, else None)
+
+The receiver verdict joins, with "; ", the fixes verdict (:mod:`gnssrel.audit.firmware`)
+and the clock-table verdict (:func:`gnssrel.clocks.firmware.check_receiver_clocks`,
+one status per system).
 """
 
 from __future__ import annotations
@@ -18,7 +22,7 @@ import numpy as np
 import pandas as pd
 
 from gnssrel.audit import firmware
-from gnssrel.audit.corrections import observation_corrections
+from gnssrel.audit.corrections import corrections_table
 from gnssrel.audit.observables import prepare_observations
 from gnssrel.audit.positioning import position_errors_3d_m, single_point_positions
 from gnssrel.audit.relativity_fit import relativity_k
@@ -35,19 +39,27 @@ class AuditResult:
     n_sat: int
     systems: list[str]
     firmware: dict | None = None
+    clock_check: dict | None = None             # gnssrel.clocks.firmware.check_receiver_clocks summary
+    clock_source: str = "broadcast"
     extra: dict = field(default_factory=dict)
 
 
 def audit_log(obs_ds, nav, receiver_position_ecef_m=None, systems=None, elevation_mask_deg: float = 10.0,
-              fixes: pd.DataFrame | None = None) -> AuditResult:
-    """Run the receiver audit on one log (see the module text)."""
+              fixes: pd.DataFrame | None = None, precise=None,
+              receiver_clocks: pd.DataFrame | None = None) -> AuditResult:
+    """Run the receiver audit on one log (see the module text).
+
+    ``precise``: None or ``{"orbits": SP3 Dataset, "clocks": Dataset with clock_s}``
+    (:func:`gnssrel.audit.observables.prepare_observations`); ``receiver_clocks``: a table of
+    :func:`gnssrel.io.receiver_clocks.read_receiver_clocks`, checked over the log's time span.
+    """
     if receiver_position_ecef_m is not None:
         reference, ref = "given", np.asarray(receiver_position_ecef_m, float)
     elif obs_ds.attrs.get("position") is not None and np.linalg.norm(obs_ds.attrs["position"]) > 6.0e6:
         reference, ref = "header", np.asarray(obs_ds.attrs["position"], float)
     else:
         reference, ref = "none", None
-    obs = prepare_observations(obs_ds, nav, systems)
+    obs = prepare_observations(obs_ds, nav, systems, precise=precise)
     iono = getattr(nav, "header", {}).get("ionosphere")
     times = obs_ds["time"].values
     hypotheses = dict(firmware.HYPOTHESES) if fixes is not None else \
@@ -58,17 +70,41 @@ def audit_log(obs_ds, nav, receiver_position_ecef_m=None, systems=None, elevatio
                  for name, terms in hypotheses.items()}
     if ref is None:                       # no position known: the corrections use our own median fix
         ref = np.nanmedian(positions["applied"][["x_m", "y_m", "z_m"]].to_numpy(), axis=0)
-    corrections = observation_corrections(obs_ds, nav, receiver_position_ecef_m=ref, systems=systems)
+    corrections = corrections_table(obs, ref, iono)
     fits = relativity_k(corrections, elevation_mask_deg=elevation_mask_deg)
     firm = firmware.compare_with_hypotheses(fixes, positions) if fixes is not None else None
+    clock_check = None
+    if receiver_clocks is not None:
+        clock_check = check_clock_table(receiver_clocks, nav, times, systems)
     return AuditResult(corrections=corrections, k_fits=fits, positions=positions, reference=reference,
                        reference_ecef_m=ref, n_epochs=int(np.unique(obs["epoch"]).size),
                        n_sat=int(np.unique(obs["sv"]).size), systems=sorted(np.unique(obs["system"]).tolist()),
-                       firmware=firm)
+                       firmware=firm, clock_check=clock_check, clock_source=obs["clock_source"])
+
+
+def check_clock_table(receiver_clocks: pd.DataFrame, nav, times, systems=None) -> dict:
+    """The receiver clock-table check (:func:`gnssrel.clocks.firmware.check_receiver_clocks`)
+    over the span of the observation epochs ``times``; returns its summary dict."""
+    from gnssrel.clocks.firmware import check_receiver_clocks
+
+    t = receiver_clocks["time"].to_numpy().astype("datetime64[ns]")
+    span = (t >= np.min(times)) & (t <= np.max(times))
+    _, check = check_receiver_clocks(receiver_clocks[span], nav, systems=systems)
+    return check
+
+
+def clock_table_verdict(check: dict) -> str:
+    """One line from the clock-table check: the status and k of each system."""
+    parts = [f"{s} {e['status']} (k = {e['convention_k']:.2f} +- {e['convention_k_sigma']:.2f}, "
+             f"expected {e['expected_k']:g})" for s, e in check["by_system"].items()]
+    return "clock table: " + ", ".join(parts)
 
 
 def audit_summary(result: AuditResult, receiver_clock_verdict: str | None = None) -> dict:
-    """The summary dictionary of the audit (keys in the module text)."""
+    """The summary dictionary of the audit (keys in the module text).  The clock-table verdict
+    is taken from ``result.clock_check`` unless ``receiver_clock_verdict`` is given."""
+    if receiver_clock_verdict is None and result.clock_check is not None:
+        receiver_clock_verdict = clock_table_verdict(result.clock_check)
     position = {"reference": result.reference, "median_error_3d_m": None,
                 "median_error_3d_m_without_periodic": None}
     if result.reference != "none":
@@ -77,16 +113,21 @@ def audit_summary(result: AuditResult, receiver_clock_verdict: str | None = None
             position[key] = float(np.nanmedian(err)) if np.isfinite(err).any() else None
         position["n_epochs_solved"] = int(np.isfinite(
             position_errors_3d_m(result.positions["applied"], result.reference_ecef_m)).sum())
-    verdicts = [v for v in ((result.firmware or {}).get("verdict"), receiver_clock_verdict) if v]
+    fixes_verdict = (result.firmware or {}).get("verdict")
+    verdicts = [v for v in (f"fixes: {fixes_verdict}" if fixes_verdict else None, receiver_clock_verdict) if v]
     summary = {
         "observations": {"n_epochs": result.n_epochs, "n_sat": result.n_sat, "systems": result.systems},
         "relativity_k": {s: {"k": f["k"], "sigma": f["sigma"], "rms_m": f["rms_m"],
+                             "expected_k": f["expected_k"], "status": f["status"],
                              "sigma_formal": f["sigma_formal"], "n_obs": f["n_obs"],
                              "n_rejected": f["n_rejected"], "n_sat": f["n_sat"]}
                          for s, f in result.k_fits.items()},
+        "clock_source": result.clock_source,
         "position": position,
         "receiver_verdict": "; ".join(verdicts) if verdicts else None,
     }
+    if result.clock_check is not None:
+        summary["receiver_clocks"] = result.clock_check
     if result.firmware is not None:
         summary["receiver_fixes"] = {k: result.firmware[k] for k in ("median_distance_m", "n_matched",
                                                                       "closest", "margin_m")}

@@ -18,7 +18,8 @@ DESCRIPTION = (
     "compute single-point positions per epoch with the periodic term applied and omitted, fit "
     "the factor k of the periodic relativistic term (k = 1: the satellites' clocks carry it as "
     "IS-GPS-200 says), and, with --receiver-fixes, tell which hypothesis the receiver's own "
-    "fixes follow.")
+    "fixes follow; with --receiver-clocks, check the receiver's satellite clock table too. "
+    "--precise takes SP3 files (orbits, and clocks unless RINEX clock files are given as well).")
 
 log = logging.getLogger(__name__)
 
@@ -27,7 +28,8 @@ def add_arguments(parser) -> None:
     parser.add_argument("obs", metavar="OBS", help="RINEX observation file (.rnx/.crx, .gz/.Z allowed)")
     parser.add_argument("nav", metavar="NAV", nargs="+", help="RINEX navigation file(s) of the same day")
     parser.add_argument("--precise", metavar="SP3|CLK", nargs="+",
-                        help="precise orbit/clock files (not yet used by the audit: refused)")
+                        help="precise products: SP3 orbit files (needed) and optionally RINEX clock files, "
+                             "whose clocks then replace the SP3 clocks")
     parser.add_argument("--position", metavar="X,Y,Z",
                         help="reference receiver position, ECEF metres (default: the header's)")
     parser.add_argument("--receiver-fixes", metavar="FILE",
@@ -70,17 +72,28 @@ def _decimate(obs_ds, step_s):
     return obs_ds.isel(time=np.flatnonzero(keep))
 
 
+def read_precise(paths, systems=None) -> dict:
+    """``{"orbits": SP3 Dataset, "clocks": Dataset with clock_s}`` from SP3 files and optional
+    RINEX clock files (told apart by content); the clock files' clocks win over the SP3's."""
+    from gnssrel.io.sp3 import read_sp3
+    from gnssrel.jobs.clocks import precise_kind, read_precise_clocks
+
+    kinds = {p: precise_kind(p) for p in paths}
+    sp3_paths = [p for p, k in kinds.items() if k == "sp3"]
+    clk_paths = [p for p, k in kinds.items() if k == "clock"]
+    if not sp3_paths:
+        raise GnssrelInputError("--precise: give at least one SP3 file (the orbits); RINEX clock "
+                                "files only add clocks")
+    orbits = read_sp3(sp3_paths, systems=systems)
+    clocks = read_precise_clocks(clk_paths, systems)[0] if clk_paths else orbits[["clock_s"]]
+    return {"orbits": orbits, "clocks": clocks}
+
+
 def run(args) -> dict:
     from gnssrel.audit.summary import audit_log, audit_summary, per_epoch_errors
     from gnssrel.io import writers
     from gnssrel.timescales import parse_time
 
-    if args.precise:
-        raise GnssrelInputError("--precise: the audit uses broadcast orbits and clocks only so far; "
-                                "run without --precise")
-    if args.receiver_clocks:
-        raise GnssrelInputError("--receiver-clocks: the receiver clock check is not wired into the audit "
-                                "yet; run 'gnssrel clocks ... --receiver-clocks FILE'")
     for out in (args.output, args.positions):
         if out:
             writers.check_output_suffix(out)
@@ -90,17 +103,23 @@ def run(args) -> dict:
     end = parse_time(args.end, "GPST") if args.end else None
     from gnssrel import read_navigation, read_observations
 
+    precise = read_precise(args.precise, systems) if args.precise else None
     obs_ds = read_observations(args.obs, systems=systems, start=start, end=end)
     obs_ds = _decimate(obs_ds, args.step)
     nav = read_navigation(args.nav[0], systems=systems)
     for more in args.nav[1:]:
         nav = nav.merge(read_navigation(more, systems=systems))
+    receiver_clocks = None
+    if args.receiver_clocks:
+        from gnssrel.io.receiver_clocks import read_receiver_clocks
+        receiver_clocks = read_receiver_clocks(args.receiver_clocks)
     fixes = None
     if args.receiver_fixes:
         from gnssrel.io.receiver_fixes import read_receiver_fixes
         fixes = read_receiver_fixes(args.receiver_fixes, date_utc=args.fix_date)
     result = audit_log(obs_ds, nav, receiver_position_ecef_m=position, systems=systems,
-                       elevation_mask_deg=args.elevation_mask, fixes=fixes)
+                       elevation_mask_deg=args.elevation_mask, fixes=fixes, precise=precise,
+                       receiver_clocks=receiver_clocks)
     summary = audit_summary(result)
     if args.output:
         writers.write_table(result.corrections, args.output)
@@ -122,9 +141,11 @@ def run(args) -> dict:
 def _print_text(summary: dict) -> None:
     o = summary["observations"]
     print(f"observations: {o['n_epochs']} epochs, {o['n_sat']} satellites, systems {''.join(o['systems'])}")
+    print(f"satellite orbits and clocks: {summary.get('clock_source', 'broadcast')}")
     for s, f in summary["relativity_k"].items():
         rms = ", ".join(f"{k} {v:.2f} m" for k, v in f["rms_m"].items())
-        print(f"periodic-term factor {s}: k = {f['k']:.3f} +- {f['sigma']:.3f} (jackknife); residual RMS {rms}")
+        print(f"periodic-term factor {s}: k = {f['k']:.3f} +- {f['sigma']:.3f} (jackknife; expected "
+              f"{f['expected_k']:g}, {f['status']}); residual RMS {rms}")
     p = summary["position"]
     if p["median_error_3d_m"] is not None:
         print(f"median 3-D error vs {p['reference']} position: {p['median_error_3d_m']:.2f} m "

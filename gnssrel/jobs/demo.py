@@ -78,10 +78,14 @@ def scenario_description(folder: Path) -> tuple[str, str | None]:
     except (OSError, ValueError):
         return "gnssrel demo report", None
     sites = ", ".join(s.get("place", s.get("marker", "?")) for s in manifest.get("sites", []))
-    text = (f"{manifest.get('notice', '')} Scenario: {manifest.get('start', '?')} to "
-            f"{manifest.get('end', '?')} {manifest.get('time_scale', 'GPST')}, receivers at {sites}. "
+    text = (f"{manifest.get('notice', '')} Scenario: {_when(manifest.get('start'))} to "
+            f"{_when(manifest.get('end'))} {manifest.get('time_scale', 'GPST')}, receivers at {sites}. "
             "The verdicts below come from gnssrel's analysis of the files, not from the scenario's manifest.")
-    return f"gnssrel demo: {manifest.get('title', 'invented scenario')}", text.strip()
+    return "gnssrel demo report: an invented scenario (not real data)", text.strip()
+
+
+def _when(text) -> str:
+    return str(text or "?").replace("T", " ")
 
 
 def run(args) -> dict:

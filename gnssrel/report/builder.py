@@ -53,6 +53,7 @@ def write_report(content, output, plots=None) -> Path:
     staging = Path(tempfile.mkdtemp(prefix=f".{output.name}.", suffix=".part", dir=parent))
     try:
         written = write_report_files(content, staging)
+        _readable(staging)
         if output.exists():
             old = Path(tempfile.mkdtemp(prefix=f".{output.name}.", suffix=".old", dir=parent))
             os.replace(output, old / output.name)
@@ -66,6 +67,15 @@ def write_report(content, output, plots=None) -> Path:
     if plots:
         copy_plots(output, plots, written["figures"])
     return output
+
+
+def _readable(folder: Path) -> None:
+    """Give the staged folder and its files the usual permissions (temp files are private)."""
+    umask = os.umask(0)
+    os.umask(umask)
+    os.chmod(folder, 0o777 & ~umask)
+    for path in folder.iterdir():
+        os.chmod(path, 0o666 & ~umask)
 
 
 def copy_plots(report_folder, plots, keys) -> None:

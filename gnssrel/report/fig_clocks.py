@@ -56,7 +56,7 @@ def clocks_figure(content) -> ReportFigure | None:
         ax_series.set_visible(False)
 
     y = np.arange(len(rows))[::-1]
-    for c_name, c in CANDIDATES.items():
+    for c in CANDIDATES.values():
         ax_k.axvline(c, color=REFERENCE, linewidth=0.8, linestyle=(0, (4, 2)), zorder=1)
         ax_k.text(c, len(rows) - 0.35, {0: "0\nexcludes", 1: "1\nincludes", -1: "−1\nreversed",
                                         2: "2\ndoubled"}[int(c)], rotation=0, ha="center", va="bottom",
@@ -71,7 +71,8 @@ def clocks_figure(content) -> ReportFigure | None:
     ax_k.set_yticklabels([f"{r['series']} · {system_name(r['system'])}" for r in rows], fontsize=7.5)
     ax_k.set_ylim(-1.6, len(rows) + 0.6)
     ax_k.set_xlim(-1.5, 2.5)
-    ax_k.set_xlabel("factor k of the periodic term (dimensionless)")
+    ax_k.set_xlabel("factor k of the periodic term\n(dimensionless)")
+    ax_k.set_ylabel("clock series · system")
     ax_k.grid(axis="x", color="white")
     ax_k.set_title("Convention fit")
     ax_k.legend(handles=[Line2D([], [], linestyle="none", marker="o", color="#555555", label="precise product"),
@@ -79,8 +80,8 @@ def clocks_figure(content) -> ReportFigure | None:
                                 markeredgewidth=1.4, label="receiver's own table")],
                 loc="lower right", fontsize=7)
     panel_letter(ax_k, "b" if ax_series.get_visible() else "a")
-    listing = "; ".join(f"{r['series']} {r['system']}: k = {r['k']:.3f} ± {r['sigma']:.3f} ({r['convention']})"
-                        for r in rows)
+    listing = "; ".join(f"{r['series']} {r['system']}: k = {round(r['k'], 3) + 0.0:.3f} ± {r['sigma']:.3f} "
+                        f"({r['convention']})" for r in rows)
     source = content.clock_source or "the precise clocks"
     caption = (
         f"(a) Precise ({source}) minus broadcast satellite clock, per satellite and epoch, with the per-epoch "
@@ -90,5 +91,6 @@ def clocks_figure(content) -> ReportFigure | None:
         "drift per satellite + k dt_r), with bars of ±3σ (σ: jackknife over satellites, honest about "
         "time-correlated residuals; bars narrower than the marker are hidden by it; receivers' own tables as diamonds edged in vermilion). Dashed lines: the "
         "candidates 0 (excludes the term), 1 (includes it), −1 (reversed), 2 (doubled). "
-        f"{listing}. A correct receiver's own table includes the term (k = 1; IS-GPS-200 20.3.3.3.3.1).")
+        f"{listing}. A correct receiver's own table includes the term (k = 1; IS-GPS-200 20.3.3.3.3.1). "
+        "Times GPST.")
     return ReportFigure("clock_convention", "Clocks: precise vs broadcast, convention", caption, fig)

@@ -67,7 +67,7 @@ def coverage_figure(content) -> ReportFigure:
                                linewidth=0)
         if rows is not None:
             change = np.flatnonzero((np.diff(rows[:, j]) != 0) & (rows[1:, j] >= 0) & (rows[:-1, j] >= 0)) + 1
-            ax.scatter(x[change], np.full(change.size, yy + 0.42), marker="|", s=18, color=INK, linewidths=0.8)
+            ax.scatter(x[change], np.full(change.size, yy + 0.42), marker="|", s=9, color=INK, linewidths=0.9)
     ax.set_yticks(np.arange(len(order)))
     ax.set_yticklabels(order[::-1], fontsize=6.2)
     for tick, sv in zip(ax.get_yticklabels(), order[::-1]):
@@ -82,8 +82,7 @@ def coverage_figure(content) -> ReportFigure:
     if seen is not None:
         handles.insert(1, Patch(facecolor="#555555", label="observed by a receiver (ionosphere-free code)"))
     handles += [Patch(facecolor=system_colour(s), label=system_name(s)) for s in letters]
-    ax.legend(handles=handles, loc="lower center", bbox_to_anchor=(0.5, 1.02), ncols=min(len(handles), 4),
-              fontsize=7.5)
+    fig.legend(handles=handles, loc="outside lower center", ncols=min(len(handles), 4), fontsize=7.5)
     n_obs = "" if seen is None else (f" A satellite was observed by at least one receiver at "
                                      f"{100 * seen.any(axis=1).mean():.0f}% of the epochs with "
                                      f"{np.median(seen.sum(axis=1)):.0f} satellites in the median epoch.")

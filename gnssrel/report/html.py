@@ -8,6 +8,7 @@ import math
 from importlib import resources
 
 import numpy as np
+import pandas as pd
 
 CAUTION = (
     "gnssrel is an analysis tool. It is not for navigation and not for safety-of-life use. Its results "
@@ -49,13 +50,12 @@ def _fmt(value) -> str:
 
 def table_html(df, max_rows: int = 40) -> str:
     cols = list(df.columns)
-    head = "".join(f"<th>{html.escape(str(c))}</th>" for c in cols)
+    text = [not pd.api.types.is_numeric_dtype(df[c]) for c in cols]   # text columns read left-aligned
+    cls = [' class="text"' if t else "" for t in text]
+    head = "".join(f"<th{k}>{html.escape(str(c))}</th>" for c, k in zip(cols, cls))
     body = []
     for row in df.head(max_rows).itertuples(index=False):
-        cells = []
-        for v in row:
-            cls = ' class="text"' if isinstance(v, str) else ""
-            cells.append(f"<td{cls}>{_fmt(v)}</td>")
+        cells = [f"<td{k}>{_fmt(v)}</td>" for v, k in zip(row, cls)]
         body.append("<tr>" + "".join(cells) + "</tr>")
     more = f'<p class="csv">{len(df) - max_rows} more rows in the CSV.</p>' if len(df) > max_rows else ""
     return f"<table><thead><tr>{head}</tr></thead><tbody>{''.join(body)}</tbody></table>{more}"
@@ -78,7 +78,7 @@ def render_html(content, figures: list[tuple], tables: dict, shown_tables=()) ->
              f"<title>{html.escape(content.title)}</title><style>{_css()}</style></head><body><main>",
              "<header class='masthead'>",
              f"<h1>{html.escape(content.title)}</h1>",
-             f"<div class='meta'>{str(t0)[:19]} to {str(t1)[:19]} GPST · "
+             f"<div class='meta'>{str(t0)[:19].replace('T', ' ')} to {str(t1)[:19].replace('T', ' ')} GPST · "
              f"{content.relativity.sizes['sv']} satellites · gnssrel {__version__}</div></header>",
              f"<div class='caution'><strong>Caution.</strong> {html.escape(CAUTION)}</div>"]
     if content.description:

@@ -15,18 +15,22 @@ def relativity_table(content) -> pd.DataFrame:
     return pd.DataFrame(rows)
 
 
+def _median(entries, key) -> float:
+    values = [e[key] for e in entries if e.get(key) is not None]
+    return float(np.nanmedian(values)) if values else float("nan")
+
+
 def relativity_by_system(content) -> pd.DataFrame:
     sats = content.relativity_summary["satellites"]
     out = []
     for s in dict.fromkeys(sv[0] for sv in sats):
         group = [e for sv, e in sats.items() if sv[0] == s]
-        med = lambda key: float(np.nanmedian([e[key] for e in group if e.get(key) is not None]))  # noqa: E731
         out.append({"system": system_name(s), "satellites": len(group),
                     "max periodic term (ns)": max(e["periodic_max_abs_ns"] for e in group),
                     "max |spec − state| (ns)": max(e["icd_vs_state_max_diff_ns"] for e in group),
-                    "median velocity (µs/day)": med("us_per_day_velocity"),
-                    "median gravity (µs/day)": med("us_per_day_gravity"),
-                    "median total (µs/day)": med("us_per_day_total"),
+                    "median velocity (µs/day)": _median(group, "us_per_day_velocity"),
+                    "median gravity (µs/day)": _median(group, "us_per_day_gravity"),
+                    "median total (µs/day)": _median(group, "us_per_day_total"),
                     "max integral − closed form, with J2 (ns)":
                         max((e.get("integral_vs_closed_form_with_j2_max_ns") or np.nan) for e in group)})
     return pd.DataFrame(out)
