@@ -80,7 +80,8 @@ def test_demo_scenario_verdicts(capsys, receiver, hypothesis, clock_status, prod
     assert {e["status"] for e in s["receiver_clocks"]["by_system"].values()} == {clock_status}
     assert f"closest to '{hypothesis}'" in s["receiver_verdict"] and clock_status in s["receiver_verdict"]
     # scenario.json sites: the header position is the true one; its median fix error about 0.8 m
-    assert s["position"]["median_error_3d_m"] < 2.0 < 10.0 < s["position"]["median_error_3d_m_without_periodic"]
+    assert s["position"]["median_error_3d_m"] < 2.0
+    assert s["position"]["median_error_3d_m_without_periodic"] > 10.0     # README: SLMB's fixes ~21 m off
 
 
 @pytest.mark.refdata

@@ -85,3 +85,17 @@ def test_transmit_time_satisfies_the_pseudorange_equation(audit):
     dt_sv = df["satellite_clock_s"].to_numpy() + df["periodic_s"].to_numpy()
     assert np.abs(flight - (df["pseudorange_m"].to_numpy() / C_M_S + dt_sv)).max() < 1e-9
     assert not df["periodic_in_clock"].any() and (df["clock_source"] == "broadcast").all()
+
+
+def test_each_system_gets_codes_it_has_in_a_mixed_log():
+    # A mixed file holds every system's codes as variables (C1C is GPS-only here): each system's
+    # pair must be chosen from the codes it has data in (NYA1 Galileo: C1X + C7X).
+    pytest.importorskip("gnssrel.io.rinex_obs", reason="the fast observation reader is not available")
+    from gnssrel import read_observations
+    from gnssrel.audit.observables import select_pseudoranges
+
+    obs = read_observations(refdata_file(OBS), systems=["G", "E"], start=np.datetime64("2024-05-03T06:00"),
+                            end=np.datetime64("2024-05-03T06:10"))
+    picked = select_pseudoranges(obs)
+    codes = dict(zip(picked["system"], picked["code"]))
+    assert codes == {"G": "C1C+C2W", "E": "C1X+C7X"}

@@ -132,3 +132,19 @@ def test_unknown_systems_argument(tmp_path):
 def test_missing_file(tmp_path):
     with pytest.raises(FileFormatError, match="no such file"):
         read_navigation(tmp_path / "absent.rnx")
+
+
+def test_file_cut_inside_a_number_is_truncated_not_read(tmp_path):
+    # A file cut mid-field still "parses" ("2.95200" of "2.952000000000E+00"), so the reader
+    # checks that every filled D19.12 field ends in its last column (RINEX 3.05 A.2).
+    from conftest import SAMPLE_LOGS
+
+    lines = (SAMPLE_LOGS / "KVRP00ZZZ_R_20251621000_03H_MN.rnx").read_text().splitlines(keepends=True)
+    first = next(i for i, ln in enumerate(lines) if "END OF HEADER" in ln) + 1
+    assert lines[first][0] == "G"                  # a GPS record: 8 lines
+    last_line = lines[first + 7]
+    bad = tmp_path / "cut.rnx"
+    bad.write_text("".join(lines[:first + 7]) + last_line[:12])  # cut inside its first number
+    line_no = first + 8
+    with pytest.raises(FileFormatError, match=rf"cut\.rnx:{line_no}: number in columns .* ends early"):
+        read_navigation(bad)

@@ -48,12 +48,14 @@ def select_pseudoranges(obs_ds, systems=None) -> dict[str, np.ndarray]:
     return the flat arrays ``epoch``, ``sv``, ``system``, ``pseudorange_m``, ``code``,
     ``frequency_hz`` of every (epoch, satellite) with a usable pseudorange."""
     sv_all = np.asarray(obs_ds["sv"].values).astype(str)
-    variables = set(obs_ds.data_vars)
+    variables = [v for v in obs_ds.data_vars if str(v)[:1] in ("C", "P")]   # code observables
     parts = _empty_like_fields()
     wanted = set(systems) if systems else set(AUDIT_SYSTEMS)
     for system in sorted({s[0] for s in sv_all} & wanted & set(AUDIT_SYSTEMS)):
         cols = np.flatnonzero(np.char.startswith(sv_all, system))
-        codes = ionosphere.choose_codes(system, variables)
+        # Codes this system has data in (a mixed file holds every system's codes as variables).
+        held = {v for v in variables if np.isfinite(np.asarray(obs_ds[v].values)[:, cols]).any()}
+        codes = ionosphere.choose_codes(system, held)
         if codes is None:
             log.warning("no usable code observable for system %s; skipped", system)
             continue

@@ -87,6 +87,7 @@ class _Problem:
             resid, design, weight = self.residuals(state, near)
             weight = np.where(active & np.isfinite(resid), weight, 0.0)
             resid = np.where(weight > 0, resid, 0.0)
+            design = np.where((weight > 0)[:, None], design, 0.0)   # no NaN from unused rows
             n_used = np.bincount(self.epoch, weights=(weight > 0).astype(float), minlength=self.n_epoch)
             n_mat, rhs = _normal_equations(design, resid, weight, self.epoch, self.n_epoch)
             solvable = n_used >= self.n_unknown

@@ -43,8 +43,12 @@ from gnssrel.orbits.glonass import ACCELERATION_COLUMNS, STATE_COLUMNS, glonass_
 from gnssrel.orbits.keplerian import ELEMENT_COLUMNS, kepler_states
 from gnssrel.orbits.precise import STATUS_OK, STATUS_OUTSIDE, precise_states
 from gnssrel.orbits.selection import select_ephemerides
-from gnssrel.relativity.clock_terms import (j2_periodic_s, osculating_elements, periodic_icd_s,
-                                            periodic_state_s)
+from gnssrel.relativity.clock_terms import (
+    j2_periodic_s,
+    osculating_elements,
+    periodic_icd_s,
+    periodic_state_s,
+)
 
 TRANSMIT_ITERATIONS = 3
 """dt_sv is below 1 ms, so each step shrinks the error by a factor ~1e-3: 3 are plenty."""

@@ -252,10 +252,24 @@ def _field_columns(major, n_lines):
     return np.asarray(starts)
 
 
-def _convert(chars, starts, records, lines, path, width=lay.FIELD_WIDTH, kind=np.float64):
-    """Convert the fields starting at ``starts`` (all records at once); blank -> NaN."""
+def _convert(chars, starts, records, lines, path, width=lay.FIELD_WIDTH, kind=np.float64,
+             right_aligned=False):
+    """Convert the fields starting at ``starts`` (all records at once); blank -> NaN.
+
+    ``right_aligned``: the fields are Fortran D19.12 (RINEX 3.05 A.2; 2.11 Table A4), which
+    always end in their last column; a filled field ending early was cut (a truncated file).
+    """
     cols = starts[:, None] + np.arange(width)
     block = np.ascontiguousarray(chars[:, cols])  # (n_rec, n_field, width)
+    if right_aligned:
+        cut = (block[..., -1] == 32) & (block != 32).any(axis=-1)
+        if cut.any():
+            r, f = (int(i[0]) for i in np.nonzero(cut))
+            line_no = records[r][0] + int(starts[f]) // lay.LINE_WIDTH
+            column = int(starts[f]) % lay.LINE_WIDTH + 1
+            raise FileFormatError(f"number in columns {column}-{column + width - 1} ends early "
+                                  f"(truncated line or misaligned field)", path, line_no + 1,
+                                  lines[line_no] if line_no < len(lines) else None)
     block[(block == 68) | (block == 100)] = 69  # Fortran 'D'/'d' exponent -> 'E'
     blank = (block == 32).all(axis=-1)
     block[blank, width - 1] = 48  # '0', masked below
@@ -334,7 +348,7 @@ def _build_table(letter, records, lines, header, path):
     names = [name for row in layout for name in row]
     starts = _field_columns(major, n_lines)
     keep = [k for k, name in enumerate(names) if name is not None]
-    values, blank = _convert(chars, starts[keep], records, lines, path)
+    values, blank = _convert(chars, starts[keep], records, lines, path, right_aligned=True)
     cols = {}
     for j, k in enumerate(keep):
         name = names[k]

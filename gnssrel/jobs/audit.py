@@ -106,9 +106,8 @@ def run(args) -> dict:
     precise = read_precise(args.precise, systems) if args.precise else None
     obs_ds = read_observations(args.obs, systems=systems, start=start, end=end)
     obs_ds = _decimate(obs_ds, args.step)
-    nav = read_navigation(args.nav[0], systems=systems)
-    for more in args.nav[1:]:
-        nav = nav.merge(read_navigation(more, systems=systems))
+    navs = [read_navigation(p, systems=systems) for p in args.nav]
+    nav = navs[0] if len(navs) == 1 else type(navs[0]).merge(navs)
     receiver_clocks = None
     if args.receiver_clocks:
         from gnssrel.io.receiver_clocks import read_receiver_clocks
