@@ -61,6 +61,9 @@ def main(argv=None) -> int:
     level = logging.ERROR if args.quiet else (logging.INFO if args.verbose == 1 else
                                               logging.DEBUG if args.verbose > 1 else logging.WARNING)
     logging.basicConfig(level=level, format="gnssrel: %(message)s")
+    from gnssrel import progress
+
+    progress.configure(False if args.quiet else None)
     try:
         args._job.run(args)
     except GnssrelInputError as exc:

@@ -20,11 +20,10 @@ broadcast satellite clock refers to:
   the combination carries c TGD1 f1^2/(f1^2 - f3^2), see :func:`group_delay_m`).
 * GLONASS FDMA: L1 + L2 (P code preferred).  Each satellite has its own carriers,
   L1 = 1602 + k 0.5625 MHz and L2 = 1246 + k 0.4375 MHz with k the frequency channel
-  (GLONASS ICD 2008 ed. 5.1, 3.3.1.4; values as given in the audit's task, status M
-  for the section number).  f1/f2 = 9/7 for every k, so the ionosphere-free
-  combination has the same coefficients for all channels; only single-frequency
-  use needs k (:func:`glonass_frequency_hz`).  The broadcast clock refers to L1
-  (tau_n); the L1/L2 combination is off by a constant per satellite, which the
+  (GLONASS ICD 2008 ed. 5.1, 3.3.1.4; every carrier is in ``gnssrel.signals``).
+  f1/f2 = 9/7 for every k, so the ionosphere-free combination has the same
+  coefficients for all channels; only single-frequency use needs k
+  (``gnssrel.signals.glonass_frequency_hz``).  The broadcast clock refers to L1 (tau_n); the L1/L2 combination is off by a constant per satellite, which the
   audit's per-satellite offsets absorb.
 """
 
@@ -33,23 +32,10 @@ from __future__ import annotations
 import numpy as np
 
 from gnssrel.constants import C_M_S
+from gnssrel.signals import CARRIER_HZ, frequency_hz, glonass_frequency_hz  # noqa: F401 (public here too)
 
 SEMICIRCLE_RAD = np.pi          # IS-GPS-200 works in semicircles: 1 semicircle = pi rad
-F_L1_HZ = 1575.42e6
-
-# Carrier frequency in Hz by system letter and the RINEX 3 band digit of the observation code
-# (RINEX 3.05 section 5.1 table; the ICDs of each system).  GLONASS FDMA carriers depend on the
-# satellite's channel: GLONASS_FDMA_HZ and glonass_frequency_hz.
-FREQUENCIES_HZ = {
-    "G": {"1": 1575.42e6, "2": 1227.60e6, "5": 1176.45e6},
-    "J": {"1": 1575.42e6, "2": 1227.60e6, "5": 1176.45e6, "6": 1278.75e6},
-    "E": {"1": 1575.42e6, "5": 1176.45e6, "7": 1207.140e6, "8": 1191.795e6, "6": 1278.75e6},
-    "C": {"2": 1561.098e6, "1": 1575.42e6, "5": 1176.45e6, "7": 1207.140e6, "8": 1191.795e6,
-          "6": 1268.52e6},
-}
-
-# GLONASS FDMA: (base, channel step) in Hz per band, GLONASS ICD 2008 ed. 5.1, 3.3.1.4 (M).
-GLONASS_FDMA_HZ = {"1": (1602.0e6, 0.5625e6), "2": (1246.0e6, 0.4375e6)}
+F_L1_HZ = CARRIER_HZ["G"]["L1"]
 
 # Ionosphere-free pairs per system in order of preference: (first-band codes, second-band codes).
 CODE_PAIRS = {
@@ -62,24 +48,6 @@ CODE_PAIRS = {
 # Single-frequency fallback codes per system (RINEX 3 first, then RINEX 2 names).
 SINGLE_CODES = {"G": ("C1C", "C1W", "C1", "P1"), "J": ("C1C", "C1X"), "E": ("C1C", "C1X"),
                 "C": ("C2I", "C2X", "C1I"), "R": ("C1C", "C1P", "C1", "P1")}
-
-
-def glonass_frequency_hz(band: str, channel) -> np.ndarray:
-    """GLONASS FDMA carrier in Hz of band ``"1"`` or ``"2"`` for frequency channel(s) ``channel``."""
-    base, step = GLONASS_FDMA_HZ[band]
-    return base + step * np.asarray(channel, dtype=float)
-
-
-def frequency_hz(system: str, code: str) -> float:
-    """Carrier frequency of an observation code (``C1C``; RINEX 2 ``C1``/``P2`` map to bands 1/2).
-    GLONASS FDMA: the channel-0 carrier (only the ratio f1/f2 = 9/7 is channel-free)."""
-    band = code[1]
-    if system == "R" and band in GLONASS_FDMA_HZ:
-        return float(glonass_frequency_hz(band, 0))
-    try:
-        return FREQUENCIES_HZ[system][band]
-    except KeyError:
-        raise KeyError(f"no frequency for system {system!r} code {code!r}") from None
 
 
 def klobuchar_l1_delay_s(lat_rad, lon_rad, elevation_rad, azimuth_rad, gps_seconds_of_day_s,
@@ -156,7 +124,7 @@ def group_delay_m(system: str, codes: tuple[str, ...], ephemeris_rows) -> np.nda
         if len(codes) == 2 and codes[1][1] == "2":
             return zero
         band = codes[0][1]
-        gamma = (FREQUENCIES_HZ["G"]["1"] / FREQUENCIES_HZ["G"]["2"]) ** 2 if band == "2" else 1.0
+        gamma = (CARRIER_HZ["G"]["L1"] / CARRIER_HZ["G"]["L2"]) ** 2 if band == "2" else 1.0
         return C_M_S * gamma * tgd
     if system == "E":
         if len(codes) == 2:

@@ -22,6 +22,7 @@ import logging
 
 import numpy as np
 
+from gnssrel import signals
 from gnssrel.audit import ionosphere, satellites
 from gnssrel.errors import NoDataError
 
@@ -61,12 +62,12 @@ def select_pseudoranges(obs_ds, systems=None) -> dict[str, np.ndarray]:
             continue
         arrays = [np.asarray(obs_ds[c].values, dtype=float)[:, cols] for c in codes]
         if len(codes) == 2:
-            f1, f2 = (ionosphere.frequency_hz(system, c) for c in codes)
+            f1, f2 = (signals.frequency_hz(system, c) for c in codes)
             p = ionosphere.ionosphere_free(arrays[0], arrays[1], f1, f2)
             freq = np.nan
         else:
             p = arrays[0]
-            freq = ionosphere.frequency_hz(system, codes[0])
+            freq = signals.frequency_hz(system, codes[0])
         lo, hi = PLAUSIBLE_RANGE_M[system]
         p = np.where((p > lo) & (p < hi), p, np.nan)        # gross errors and empty fields
         ep, col = np.nonzero(np.isfinite(p))
@@ -129,7 +130,7 @@ def prepare_observations(obs_ds, nav, systems=None, include_unhealthy: bool = Fa
         obs["ephemeris_row"][idx] = rows
         codes = tuple(obs["code"][idx[0]].split("+"))
         if system == "R" and len(codes) == 1:           # FDMA: the carrier of the satellite's channel
-            obs["frequency_hz"][idx] = ionosphere.glonass_frequency_hz(
+            obs["frequency_hz"][idx] = signals.glonass_frequency_hz(
                 codes[0][1], satellites.take_rows(eph, "frequency_channel", rows))
         obs["group_delay_m"][idx] = np.where(rows >= 0, ionosphere.group_delay_m(
             system, codes, eph.iloc[np.where(rows >= 0, rows, 0)]), np.nan)

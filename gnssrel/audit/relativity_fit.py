@@ -112,7 +112,9 @@ def fit_periodic_factor(residual_m, periodic_m, epoch, sv, reject_sigma: float =
     sigma_jk = np.nan
     if jackknife and names.size >= 3:
         ks = []
-        for name in names:                                  # delete-one-satellite jackknife
+        from gnssrel.progress import bar
+
+        for name in bar(names, "jackknife over satellites"):  # delete-one-satellite jackknife
             m = sv != name
             ks.append(_solve(y[m], x[m], _dense_ids(epoch[m]), _dense_ids(sv[m]))[0])
         ks = np.asarray(ks)

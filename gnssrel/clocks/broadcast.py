@@ -24,6 +24,7 @@ from __future__ import annotations
 import numpy as np
 
 from gnssrel.relativity.rules import RULES
+from gnssrel.signals import CARRIER_HZ
 from gnssrel.timescales import seconds_between, week_crossover
 
 POLYNOMIAL_HOLDS_PERIODIC = {letter: not rule.user_applies_periodic for letter, rule in RULES.items()}
@@ -33,11 +34,11 @@ user does not add the term (GLONASS: NAVI "Relativistic Clock Correction", publi
 it is inside the broadcast clock terms; G/J: IS-GPS-200 20.3.3.3.3.1, E: Galileo OS SIS
 ICD 5.1.4, C: BDS-SIS-ICD 5.2.4.10 (user adds it)."""
 
-# Frequencies (MHz) for the group-delay factors: IS-GPS-200 3.3.1.1 (L1 1575.42, L2 1227.60);
-# Galileo OS SIS ICD 2.x table 2 (E1 1575.42, E5a 1176.45, E5b 1207.14); BDS ICDs
-# (B1I 1561.098, B2I 1207.14, B3I 1268.52).  From memory (status M) except GPS (V2).
-_F_MHZ = {"L1": 1575.42, "L2": 1227.60, "E1": 1575.42, "E5a": 1176.45, "E5b": 1207.14,
-          "B1I": 1561.098, "B2I": 1207.14, "B3I": 1268.52}
+# Carriers of the group-delay factors, from gnssrel.signals (sources there).  Kept in MHz
+# (Hz / 1e6 is the same float as the MHz literal) so the factors stay what they were.
+_F_MHZ = {name: CARRIER_HZ[letter][signal] / 1e6 for name, (letter, signal) in {
+    "L1": ("G", "L1"), "L2": ("G", "L2"), "E1": ("E", "E1"), "E5a": ("E", "E5a"),
+    "E5b": ("E", "E5b"), "B1I": ("C", "B1I"), "B2I": ("C", "B2I"), "B3I": ("C", "B3I")}.items()}
 
 
 def _ratio2(a: str, b: str) -> float:

@@ -14,9 +14,9 @@ from __future__ import annotations
 import numpy as np
 
 from gnssrel.constants import C_M_S, OMEGA_EARTH_IERS_RAD_S
+from gnssrel.geodesy import ecef_to_geodetic, enu_rotation
 from gnssrel.simulate import truth
-from gnssrel.simulate.geodesy import ecef_to_geodetic, enu_matrix
-from gnssrel.simulate.observe import ELEVATION_MASK_RAD, group_delay_s, ionosphere_l1_m
+from gnssrel.simulate.observe import group_delay_s, ionosphere_l1_m
 from gnssrel.simulate.propagation import L1_HZ, rotate_z, troposphere_m
 from gnssrel.simulate.scenario import FREQUENCY_HZ, SIGNALS
 
@@ -71,7 +71,7 @@ def firmware_fixes(scn, rcv, sim) -> dict:
         step = np.linalg.solve(normal, rhs[..., None])[..., 0]
         x, b = x + step[:, :3], b + step[:, 3:]
     lat, lon, _ = ecef_to_geodetic(rcv.site.position_ecef_m)
-    rot = enu_matrix(lat, lon)
+    rot = enu_rotation(lat, lon)
     unweighted = np.einsum("tsi,ts,tsj->tij", design, use.astype(float), design) \
         + np.eye(6)[None] * (missing[:, :, None] * 1.0)
     q = np.linalg.inv(unweighted)[:, :3, :3]

@@ -14,14 +14,25 @@ import numpy as np
 
 from gnssrel import __version__
 from gnssrel.errors import GnssrelInputError
+from gnssrel.geodesy import ecef_to_geodetic
 from gnssrel.io.writers import write_json
 from gnssrel.simulate import truth
 from gnssrel.simulate.firmware import firmware_fixes
-from gnssrel.simulate.geodesy import ecef_to_geodetic
 from gnssrel.simulate.observe import simulate_observables
 from gnssrel.simulate.scenario import (
-    DEFAULT_SEED, DEFAULT_START_GPST, FREQUENCY_HZ, KLOBUCHAR_ALPHA, KLOBUCHAR_BETA,
-    LEAP_SECONDS, NAV_TYPE, NEQUICK_AI, SIGNALS, build_scenario, issue_times, reexpress)
+    DEFAULT_SEED,
+    DEFAULT_START_GPST,
+    FREQUENCY_HZ,
+    KLOBUCHAR_ALPHA,
+    KLOBUCHAR_BETA,
+    LEAP_SECONDS,
+    NAV_TYPE,
+    NEQUICK_AI,
+    SIGNALS,
+    build_scenario,
+    issue_times,
+    reexpress,
+)
 from gnssrel.simulate.textfile import calendar
 from gnssrel.simulate.write_clock import write_clock
 from gnssrel.simulate.write_nav import write_navigation
@@ -45,12 +56,12 @@ EXPECTED = {  # what the audit should conclude, per firmware periodic-term mode
 
 
 def _span_code(hours: float) -> str:
-    minutes = int(round(hours * 60))
+    minutes = round(hours * 60)
     return f"{minutes // 60:02d}H" if minutes % 60 == 0 else f"{minutes:02d}M"
 
 
 def _stamp(t) -> str:
-    y, mo, d, h, mi, s = calendar(t)
+    y, _mo, _d, h, mi, _s = calendar(t)
     doy = int((np.datetime64(t, "D") - np.datetime64(f"{y}-01-01", "D")).astype(int)) + 1
     return f"{y:04d}{doy:03d}{h:02d}{mi:02d}"
 
@@ -124,18 +135,19 @@ def write_scenario(output_dir, seed: int = DEFAULT_SEED, hours: float = 3.0, int
                                "position_ecef_m": rcv.site.position_ecef_m,
                                "interval_s": scn.interval_s, "leap_seconds": LEAP_SECONDS})
         fix = firmware_fixes(scn, rcv, sim)
-        lat, lon, h = ecef_to_geodetic(fix["position_ecef_m"])
+        lat_rad, lon_rad, h = ecef_to_geodetic(fix["position_ecef_m"])
+        lat, lon = np.degrees(lat_rad), np.degrees(lon_rad)
         t_utc = scn.epochs - np.timedelta64(LEAP_SECONDS, "s")
         write_gga(out / names[f"{rcv.marker}:fixes"], t_utc, lat, lon, h,
                   rcv.site.geoid_separation_m, fix["n_used"], fix["hdop"])
         write_receiver_clocks(out / names[f"{rcv.marker}:satellite_clocks"], scn.epochs, sv,
                               fix["clock_correction_s"], comments=[
-                                  f"Satellite clock corrections applied by receiver {rcv.marker} "
-                                  f"({rcv.receiver_type}, firmware {rcv.firmware})", NOTICE,
+                                  (f"Satellite clock corrections applied by receiver {rcv.marker} "
+                                   f"({rcv.receiver_type}, firmware {rcv.firmware})"), NOTICE,
                                   "time: measurement epoch; time_scale: its scale; sv: RINEX satellite name",
-                                  "clock_correction_s: satellite clock offset from system time as the "
-                                  "firmware computed it (broadcast polynomial plus relativistic terms), "
-                                  "at signal transmission, without group delay"])
+                                  ("clock_correction_s: satellite clock offset from system time as the "
+                                   "firmware computed it (broadcast polynomial plus relativistic terms), "
+                                   "at signal transmission, without group delay")])
         err3d = np.linalg.norm(fix["position_ecef_m"] - rcv.site.position_ecef_m, axis=1)
         receivers.append({
             "marker": rcv.marker, "site": rcv.site.marker, "receiver_type": rcv.receiver_type,
@@ -172,7 +184,7 @@ def _manifest(scn, names, receivers, ephemerides) -> dict:
         "time_scale": "GPST", "start": str(scn.start.astype("datetime64[s]")),
         "end": str(scn.end.astype("datetime64[s]")), "last_epoch": str(scn.epochs[-1].astype("datetime64[s]")), "leap_seconds": LEAP_SECONDS,
         "systems": {c: {"satellites": [s for s in scn.sv if s[0] == c], "nav_type": NAV_TYPE[c],
-                        "records": int(len(ephemerides[c])),
+                        "records": len(ephemerides[c]),
                         "signals": [code for band in SIGNALS[c] for code in band],
                         "frequencies_hz": FREQUENCY_HZ[c]} for c in "GEC"},
         "satellites": sats,

@@ -20,9 +20,10 @@ from __future__ import annotations
 import numpy as np
 
 from gnssrel.constants import C_M_S, GM_EARTH_IERS_M3_S2, OMEGA_EARTH_IERS_RAD_S
-from gnssrel.simulate.geodesy import azimuth_elevation, ecef_to_geodetic
+from gnssrel.geodesy import azimuth_elevation, ecef_to_geodetic
+from gnssrel.signals import CARRIER_HZ
 
-L1_HZ = 1575.42e6
+L1_HZ = CARRIER_HZ["G"]["L1"]
 LIGHT_TIME_ITERATIONS = 4   # converges to < 1 ps for ground receivers
 
 
@@ -99,4 +100,4 @@ def receiver_view(receiver_ecef_m, satellite_ecef_m):
     """(azimuth, elevation, lat deg, lon deg, height m) of satellites seen from a receiver."""
     az, el = azimuth_elevation(receiver_ecef_m, satellite_ecef_m)
     lat, lon, h = ecef_to_geodetic(receiver_ecef_m)
-    return az, el, float(lat), float(lon), float(h)
+    return az, el, float(np.degrees(lat)), float(np.degrees(lon)), float(h)

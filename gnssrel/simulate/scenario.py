@@ -21,22 +21,21 @@ import numpy as np
 import pandas as pd
 
 from gnssrel.constants import SYSTEMS
-from gnssrel.simulate.geodesy import geodetic_to_ecef
+from gnssrel.geodesy import geodetic_to_ecef
+from gnssrel.signals import RINEX_BAND_HZ
 from gnssrel.timescales import SYSTEM_TIME_SCALE, seconds_between, to_week_seconds
 
 DEFAULT_SEED = 20250611
 DEFAULT_START_GPST = np.datetime64("2025-06-11T10:00:00", "ns")
 LEAP_SECONDS = 18  # GPST - UTC in 2025 (IERS Bulletin C: none since 2017-01-01; from memory)
 
-# Carrier frequencies, Hz: IS-GPS-200 3.3.1.1 (L1 154 f0, L2 120 f0); Galileo OS SIS ICD 2.
-# (E1 1575.42, E5a 1176.45); BDS-SIS-ICD-B1I 3.0 (B1I 1561.098) and B3I ICD (1268.52).
-FREQUENCY_HZ = {"G": {"1": 1575.42e6, "2": 1227.60e6},
-                "E": {"1": 1575.42e6, "5": 1176.45e6},
-                "C": {"2": 1561.098e6, "6": 1268.52e6}}
 # Observed signals per system: (code, phase, strength) for the two frequencies.
 SIGNALS = {"G": (("C1C", "L1C", "S1C"), ("C2W", "L2W", "S2W")),
            "E": (("C1C", "L1C", "S1C"), ("C5Q", "L5Q", "S5Q")),
            "C": (("C2I", "L2I", "S2I"), ("C6I", "L6I", "S6I"))}
+# Carrier frequencies, Hz, of the observed bands: GPS L1/L2, Galileo E1/E5a, BeiDou B1I/B3I
+# (gnssrel.signals, with their sources), keyed by RINEX band digit in the order of SIGNALS.
+FREQUENCY_HZ = {c: {s[0][1]: RINEX_BAND_HZ[c][s[0][1]] for s in signals} for c, signals in SIGNALS.items()}
 
 # How often each system's broadcast records are issued (s) and their time-of-transmission lead.
 ISSUE_INTERVAL_S = {"G": 7200, "E": 3600, "C": 3600}
@@ -62,7 +61,7 @@ class Site:
 
     @property
     def position_ecef_m(self) -> np.ndarray:
-        return geodetic_to_ecef(self.lat_deg, self.lon_deg, self.height_m)
+        return geodetic_to_ecef(np.radians(self.lat_deg), np.radians(self.lon_deg), self.height_m)
 
 
 @dataclass(frozen=True)
@@ -95,12 +94,12 @@ class Scenario:
 
     @property
     def end(self) -> np.datetime64:
-        return self.start + np.timedelta64(int(round(self.hours * 3600e9)), "ns")
+        return self.start + np.timedelta64(round(self.hours * 3600e9), "ns")
 
     @property
     def epochs(self) -> np.ndarray:
-        n = int(round(self.hours * 3600 / self.interval_s))
-        step = np.timedelta64(int(round(self.interval_s * 1e9)), "ns")
+        n = round(self.hours * 3600 / self.interval_s)
+        step = np.timedelta64(round(self.interval_s * 1e9), "ns")
         return self.start + step * np.arange(n)
 
     @property
@@ -113,8 +112,9 @@ def _constellation(rng: np.random.Generator) -> list[dict]:
     sats = []
 
     def add(sv, sqrt_a, e, inc_deg, node_deg, arg_lat_deg):
-        sats.append(dict(sv=sv, sqrt_a=sqrt_a, e=e, inc=np.radians(inc_deg),
-                         node=None if node_deg is None else np.radians(node_deg), arg_lat=np.radians(arg_lat_deg)))
+        sats.append({"sv": sv, "sqrt_a": sqrt_a, "e": e, "inc": np.radians(inc_deg),
+                     "node": None if node_deg is None else np.radians(node_deg),
+                     "arg_lat": np.radians(arg_lat_deg)})
 
     prn = iter([1, 2, 3, 5, 6, 7, 8, 9, 10, 11, 12, 13, 14, 15, 16, 17, 18, 19, 20, 21, 22, 24, 25, 26])
     for plane in range(6):
@@ -183,7 +183,7 @@ def _clocks(sv, rng) -> pd.DataFrame:
     af0 = rng.uniform(-6e-4, 6e-4, n)
     af1 = np.where(letter == "C", rng.normal(0, 3e-11, n), rng.normal(0, 6e-12, n))
     lsb = 2.0**-31  # IS-GPS-200 Table 20-I T_GD scale (BeiDou uses 0.1 ns; taken alike here)
-    q = lambda x: np.round(x / lsb) * lsb  # noqa: E731
+    q = lambda x: np.round(x / lsb) * lsb
     return pd.DataFrame({
         "sv": sv, "af0_s": af0, "af1_s_per_s": af1, "af2_s_per_s2": np.zeros(n),
         "tgd_s": q(rng.uniform(-1.2e-8, 6e-9, n)),            # GPS L1/L2 P(Y)
@@ -249,7 +249,7 @@ def reexpress(reference: pd.DataFrame, clock: pd.DataFrame, toe_gpst: np.ndarray
     scale = SYSTEM_TIME_SCALE[letter]
     toe = np.asarray(toe_gpst, dtype="datetime64[ns]")
     n_sat, n_rec = len(ref), len(toe)
-    rep = lambda col: np.repeat(ref[col].to_numpy(), n_rec)  # noqa: E731
+    rep = lambda col: np.repeat(ref[col].to_numpy(), n_rec)
     toe_all = np.tile(toe, n_sat)
     dt = seconds_between(toe_all, rep("toe"))
     week, sow = to_week_seconds(toe_all, scale)
