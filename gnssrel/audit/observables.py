@@ -25,6 +25,7 @@ import numpy as np
 from gnssrel import signals
 from gnssrel.audit import ionosphere, satellites
 from gnssrel.errors import NoDataError
+from gnssrel.orbits.selection import take_rows
 
 log = logging.getLogger(__name__)
 
@@ -131,7 +132,7 @@ def prepare_observations(obs_ds, nav, systems=None, include_unhealthy: bool = Fa
         codes = tuple(obs["code"][idx[0]].split("+"))
         if system == "R" and len(codes) == 1:           # FDMA: the carrier of the satellite's channel
             obs["frequency_hz"][idx] = signals.glonass_frequency_hz(
-                codes[0][1], satellites.take_rows(eph, "frequency_channel", rows))
+                codes[0][1], take_rows(eph, "frequency_channel", rows))
         obs["group_delay_m"][idx] = np.where(rows >= 0, ionosphere.group_delay_m(
             system, codes, eph.iloc[np.where(rows >= 0, rows, 0)]), np.nan)
     return obs

@@ -42,7 +42,7 @@ from gnssrel.constants import C_M_S, SYSTEMS
 from gnssrel.orbits.glonass import ACCELERATION_COLUMNS, STATE_COLUMNS, glonass_states
 from gnssrel.orbits.keplerian import ELEMENT_COLUMNS, kepler_states
 from gnssrel.orbits.precise import STATUS_OK, STATUS_OUTSIDE, precise_states
-from gnssrel.orbits.selection import select_ephemerides
+from gnssrel.orbits.selection import select_ephemerides, take_rows
 from gnssrel.relativity.clock_terms import (
     j2_periodic_s,
     osculating_elements,
@@ -64,22 +64,6 @@ def offset_times(t_gpst, offset_s) -> np.ndarray:
     ns = np.where(np.isfinite(offset), np.round(offset * 1e9), 0.0).astype("int64")
     out = np.asarray(t_gpst).astype("datetime64[ns]") + ns.astype("timedelta64[ns]")
     return np.where(np.isfinite(offset), out, np.datetime64("NaT"))
-
-
-def take_rows(table, column, rows) -> np.ndarray:
-    """Column values of the chosen rows; NaN/NaT/False where ``rows`` is -1."""
-    values = table[column].to_numpy()
-    ok = rows >= 0
-    if values.dtype.kind == "M" or column in ("toe", "toc"):
-        out = np.full(rows.shape, np.datetime64("NaT"), dtype="datetime64[ns]")
-        out[ok] = values.astype("datetime64[ns]")[rows[ok]]
-    elif values.dtype == bool:
-        out = np.zeros(rows.shape, bool)
-        out[ok] = values[rows[ok]]
-    else:
-        out = np.full(rows.shape, np.nan)
-        out[ok] = values.astype(float)[rows[ok]]
-    return out
 
 
 def choose_records(table, system: str, sv, t_gpst, include_unhealthy: bool = False):

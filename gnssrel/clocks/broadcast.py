@@ -23,6 +23,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from gnssrel.orbits.selection import take_rows
 from gnssrel.relativity.rules import RULES
 from gnssrel.signals import CARRIER_HZ
 from gnssrel.timescales import seconds_between, week_crossover
@@ -113,22 +114,6 @@ def clock_reference(system: str) -> str:
     return "; ".join(parts) if parts else "unknown"
 
 
-def _take(table, column: str, rows: np.ndarray) -> np.ndarray:
-    values = table[column].to_numpy(dtype=np.float64)
-    ok = rows >= 0
-    out = np.full(rows.shape, np.nan)
-    out[ok] = values[rows[ok]]
-    return out
-
-
-def _take_time(table, column: str, rows: np.ndarray) -> np.ndarray:
-    values = table[column].to_numpy().astype("datetime64[ns]")
-    out = np.full(rows.shape, np.datetime64("NaT"), dtype="datetime64[ns]")
-    ok = rows >= 0
-    out[ok] = values[rows[ok]]
-    return out
-
-
 def broadcast_clock_s(table, rows, t_gpst, system: str) -> np.ndarray:
     """Broadcast clock polynomial (s) from ephemeris rows at GPST times.
 
@@ -139,19 +124,19 @@ def broadcast_clock_s(table, rows, t_gpst, system: str) -> np.ndarray:
     """
     rows, t = np.broadcast_arrays(np.asarray(rows, dtype=np.int64),
                                   np.asarray(t_gpst).astype("datetime64[ns]"))
-    toc = _take_time(table, "toc", rows)
+    toc = take_rows(table, "toc", rows)
     dt_s = seconds_between(t, toc)  # NaT -> huge negative int; masked below
     dt_s = np.where(rows >= 0, dt_s, np.nan)
-    a0 = _take(table, "clock_bias_s", rows)
+    a0 = take_rows(table, "clock_bias_s", rows)
     if system == "R":
         # GLONASS ICD 2008 3.3.3: t_GLO = t_sv + tau_n - gamma_n (t_sv - t_b); t_b is a
         # full datetime here, so no day crossover is needed.
-        return a0 + _take(table, "relative_frequency_bias", rows) * dt_s
+        return a0 + take_rows(table, "relative_frequency_bias", rows) * dt_s
     # IS-GPS-200 20.3.3.3.3.1 (and GAL-ICD 5.1.4, BDS-ICD 5.2.4.9): fold t - t_oc into +-302 400 s.
     # With toc a full GPST datetime the fold changes nothing unless toc was built wrongly.
     dt_s = week_crossover(dt_s)
-    a1 = _take(table, "clock_drift_s_per_s", rows)
-    a2 = _take(table, "clock_drift_rate_s_per_s2", rows)
+    a1 = take_rows(table, "clock_drift_s_per_s", rows)
+    a2 = take_rows(table, "clock_drift_rate_s_per_s2", rows)
     return a0 + a1 * dt_s + a2 * dt_s * dt_s
 
 
@@ -165,4 +150,4 @@ def single_frequency_clock_s(clock_s, table, rows, system: str, nav_type: str, s
     clock_s = np.asarray(clock_s, dtype=np.float64)
     if column is None:
         return clock_s.copy()
-    return clock_s - factor * _take(table, column, np.asarray(rows, dtype=np.int64))
+    return clock_s - factor * take_rows(table, column, np.asarray(rows, dtype=np.int64))

@@ -146,3 +146,21 @@ def select_ephemerides(table: pd.DataFrame, svs, times, system: str, include_unh
             [found, (in_time & transmitted).any(axis=1), in_time.any(axis=1)],
             [STATUS_OK, STATUS_UNHEALTHY, STATUS_NOT_TRANSMITTED], STATUS_NO_EPHEMERIS)
     return row_index, status
+
+
+def take_rows(table, column: str, rows) -> np.ndarray:
+    """Values of ``column`` at the selected ``rows`` (any shape); NaN / NaT / False where a row is -1."""
+    rows = np.asarray(rows, dtype=np.int64)
+    values = table[column].to_numpy()
+    ok = rows >= 0
+    if values.dtype.kind == "M" or column in ("toe", "toc", "transmission_time"):
+        out = np.full(rows.shape, np.datetime64("NaT"), dtype="datetime64[ns]")
+        out[ok] = values.astype("datetime64[ns]")[rows[ok]]
+    elif values.dtype == bool:
+        out = np.zeros(rows.shape, bool)
+        out[ok] = values[rows[ok]]
+    else:
+        out = np.full(rows.shape, np.nan)
+        out[ok] = values.astype(float)[rows[ok]]
+    return out
+
