@@ -79,7 +79,17 @@ def audit_log(obs_ds, nav, receiver_position_ecef_m=None, systems=None, elevatio
     return AuditResult(corrections=corrections, k_fits=fits, positions=positions, reference=reference,
                        reference_ecef_m=ref, n_epochs=int(np.unique(obs["epoch"]).size),
                        n_sat=int(np.unique(obs["sv"]).size), systems=sorted(np.unique(obs["system"]).tolist()),
-                       firmware=firm, clock_check=clock_check, clock_source=obs["clock_source"])
+                       firmware=firm, clock_check=clock_check, clock_source=obs["clock_source"],
+                       extra={"log": _log_health(obs_ds)})
+
+
+def _log_health(obs_ds) -> dict:
+    """What the reader skipped or found odd in the log, so nothing is lost silently."""
+    attrs = obs_ds.attrs
+    return {"epochs_in_file_read": int(obs_ds.sizes.get("time", 0)),
+            "skipped_epochs": int(attrs.get("skipped_epochs", 0) or 0),
+            "skipped_epoch_lines": list(attrs.get("skipped_epoch_lines", []) or []),
+            "reader_warnings": list(attrs.get("warnings", []) or [])}
 
 
 def check_clock_table(receiver_clocks: pd.DataFrame, nav, times, systems=None) -> dict:
@@ -116,7 +126,8 @@ def audit_summary(result: AuditResult, receiver_clock_verdict: str | None = None
     fixes_verdict = (result.firmware or {}).get("verdict")
     verdicts = [v for v in (f"fixes: {fixes_verdict}" if fixes_verdict else None, receiver_clock_verdict) if v]
     summary = {
-        "observations": {"n_epochs": result.n_epochs, "n_sat": result.n_sat, "systems": result.systems},
+        "observations": {"n_epochs": result.n_epochs, "n_sat": result.n_sat, "systems": result.systems,
+                         **result.extra.get("log", {})},
         "relativity_k": {s: {"k": f["k"], "sigma": f["sigma"], "rms_m": f["rms_m"],
                              "expected_k": f["expected_k"], "status": f["status"],
                              "sigma_formal": f["sigma_formal"], "n_obs": f["n_obs"],
