@@ -39,7 +39,7 @@ def test_summary_keys_and_outputs_on_real_log(tmp_path, capsys):
     summary = json.loads(summary_path.read_text())
     assert printed == summary
     assert set(summary) >= {"observations", "relativity_k", "position", "receiver_verdict"}
-    assert set(summary["observations"]) == {"n_epochs", "n_sat", "systems"}
+    assert set(summary["observations"]) == {"n_epochs", "n_sat", "systems", "start", "end", "time_scale"}
     assert summary["observations"]["n_epochs"] == 37 and summary["observations"]["systems"] == ["G"]
     assert set(summary["relativity_k"]["G"]) >= {"k", "sigma", "rms_m"}
     assert set(summary["relativity_k"]["G"]["rms_m"]) == {"applied", "omitted", "reversed", "doubled"}
@@ -100,3 +100,33 @@ def test_glonass_on_a_rinex_4_log(capsys):
     # 6 GLONASS satellites alone: broadcast orbits ~3 m (REFERENCE-CHECKS 3.2), header good to metres
     assert s["position"]["median_error_3d_m"] < 10.0
     assert s["position"]["median_error_3d_m"] == s["position"]["median_error_3d_m_without_periodic"]
+
+
+@pytest.mark.parametrize("extra, message", [
+    (["--systems", "GX"], "--systems: unknown letters X"),
+    (["--start", "2025-06-11T12:00", "--end", "2025-06-11T11:00"], "is before --start"),
+    (["--summary", "summary.txt"], "unknown output format"),
+])
+def test_shared_options_are_checked_as_in_the_other_commands(tmp_path, capsys, extra, message):
+    extra = [str(tmp_path / e) if e == "summary.txt" else e for e in extra]
+    code = main(["audit", str(tmp_path / "missing.rnx"), str(tmp_path / "missing.nav"), *extra])
+    err = capsys.readouterr().err
+    assert code == 2 and message in err and err.count("\n") == 1
+
+
+@pytest.mark.refdata
+def test_a_system_observed_without_navigation_is_left_out_not_fatal(capsys):
+    # NYA1 logs GLONASS but the navigation files given hold none: positions must still be solved.
+    nav = [refdata_file(f"2024-124/NYA100NOR_S_20241240000_01D_{k}N.rnx.gz") for k in "GEC"]
+    code = main(["audit", str(refdata_file(OBS)), *map(str, nav), "--start", "2024-05-03T06:00",
+                 "--end", "2024-05-03T06:20"])
+    out = capsys.readouterr().out
+    assert code == 0
+    title, *rest = out.splitlines()
+    assert title.startswith("audit of a receiver log:") and "of GEC" in title and title.endswith("GPST")
+    assert "06:00:00 to 06:20:00" in title and ".000000000" not in out
+    assert "median 3-D position error" in out                       # the fix is not voided by GLONASS
+    header = next(line for line in rest if line.startswith("system"))
+    assert "RMS applied (m)" in header and "sigma k" in header
+    rows = [line[:9].strip() for line in rest if line[:1] in "GECJR" and line[1:2] == " "]
+    assert rows == ["G GPS", "E Galileo", "C BeiDou"]               # G E C J R order

@@ -90,3 +90,19 @@ def test_report_pairs_fixes_with_logs(tmp_path, capsys):
                  "--output", str(tmp_path / "r")])
     assert code == 2 and "one file per --obs" in capsys.readouterr().err
     assert not (tmp_path / "r").exists()
+
+
+def test_scenario_description_names_each_receiver_with_its_place():
+    from gnssrel.jobs.demo import scenario_description
+
+    manifest = json.loads((SAMPLE_LOGS / "scenario.json").read_text())
+    _, text = scenario_description(SAMPLE_LOGS)
+    for site in manifest["sites"]:
+        first, _, region = site["place"].partition(", ")
+        assert f"{site['marker']} at {first} ({region})" in text
+
+
+def test_report_refuses_a_missing_output_folder_before_any_work(tmp_path, capsys):
+    code = main(["report", str(tmp_path / "missing.rnx"), "--output", str(tmp_path / "no" / "report")])
+    out = capsys.readouterr()
+    assert code == 2 and "does not exist" in out.err and out.out == ""

@@ -32,7 +32,9 @@ def test_state_table_csv_on_a_window(tmp_path, capsys):
     ok = table["status"] == "ok"
     assert table.loc[ok, "x_m"].notna().all() and table.loc[~ok, "x_m"].isna().all()
     printed = capsys.readouterr().out
-    assert "G" in printed and "epochs ok" in printed
+    title, header, *rows = printed.splitlines()
+    assert title == "broadcast satellite states: 7 epochs, 2020-06-25 10:00:00 to 11:00:00 GPST"
+    assert "epochs with a state (%)" in header and [r.split()[0] for r in rows] == ["G", "R"]
 
 
 @pytest.mark.refdata
@@ -60,7 +62,7 @@ def test_comparison_summary_json_has_the_issue_keys(tmp_path, capsys):
     assert {"n_epochs", "rms_3d_m", "rms_radial_m", "rms_along_m", "rms_cross_m"} <= set(summary["satellites"]["G05"])
     per_sat = pd.read_parquet(table_path)
     assert per_sat.set_index("sv").loc["G05", "rms_3d_m"] == pytest.approx(summary["satellites"]["G05"]["rms_3d_m"])
-    assert "median 3D RMS" in capsys.readouterr().out
+    assert "median 3D RMS (m)" in capsys.readouterr().out
 
 
 @pytest.mark.refdata

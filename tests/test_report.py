@@ -162,3 +162,24 @@ def test_palette_survives_colour_vision_deficiency():
         labs = [_lab(c, m) for c in colours]
         gaps = [np.linalg.norm(a - b) for i, a in enumerate(labs) for b in labs[i + 1:]]
         assert min(gaps) >= 15.0, name
+
+
+def test_html_tables_keep_one_format_per_column_and_never_show_sigma_as_zero():
+    import pandas as pd
+
+    from gnssrel.report.html import table_html
+
+    page = table_html(pd.DataFrame({"system": ["GPS", "BeiDou"], "max periodic term (ns)": [107.6, 16.713],
+                                    "k": [1.0, -3.4e-07], "σ(k)": [2.791e-06, 0.0071]}))
+    cells = re.findall(r"<td[^>]*>([^<]*)</td>", page)
+    assert cells == ["GPS", "107.6", "1.000", "&lt; 0.001", "BeiDou", "16.7", "0.000", "0.007"]
+
+
+def test_verdict_sentence_prints_tiny_sigmas_as_a_bound():
+    from gnssrel.report.verdicts import receiver_verdict
+
+    check = {"by_system": {s: {"convention": "excludes-periodic", "status": "fault: periodic term missing",
+                               "convention_k": -3.4e-07, "convention_k_sigma": 5.9e-07} for s in "CEG"}}
+    sentence = receiver_verdict("SLMB", None, check)["verdict"]
+    assert "± 0.000" not in sentence and "-0.000" not in sentence
+    assert "clock table k = G 0.000 (σ < 0.001), E 0.000 (σ < 0.001), C 0.000 (σ < 0.001)" in sentence

@@ -11,6 +11,7 @@ import logging
 import numpy as np
 
 from gnssrel.errors import GnssrelInputError
+from gnssrel.jobs import common
 
 HELP = "audit a receiver log: corrections per observation, positions, the periodic-term fit"
 DESCRIPTION = (
@@ -38,18 +39,14 @@ def add_arguments(parser) -> None:
                         help="UTC date of an NMEA log without RMC/ZDA sentences")
     parser.add_argument("--receiver-clocks", metavar="FILE",
                         help="the receiver's own satellite clock corrections (CSV of the clocks command)")
-    parser.add_argument("--systems", default=None, help="systems to use, e.g. GE (default: all supported)")
-    parser.add_argument("--start", help="first epoch, with its scale (e.g. '2024-05-03T06:00 GPST')")
-    parser.add_argument("--end", help="last epoch, with its scale")
-    parser.add_argument("--step", type=float, default=None, metavar="SECONDS",
-                        help="keep only epochs on multiples of this interval")
+    common.add_systems(parser)
+    common.add_time_window(parser, None, "keep only epochs on multiples of this interval, s "
+                                         "(default: every epoch of OBS)")
     parser.add_argument("--elevation-mask", type=float, default=10.0, metavar="DEG",
                         help="elevation mask in degrees (default 10)")
-    parser.add_argument("--output", metavar="FILE", help="per-observation corrections table (.csv/.parquet/.nc)")
+    common.add_outputs(parser, "per-observation corrections table (.csv, .parquet or .nc)")
     parser.add_argument("--positions", metavar="FILE",
-                        help="per-epoch positions and 3-D errors table (.csv/.parquet/.nc)")
-    parser.add_argument("--summary", metavar="FILE.json", help="write the summary as JSON")
-    parser.add_argument("--json", action="store_true", help="print the summary as JSON")
+                        help="per-epoch positions and 3-D errors table (.csv, .parquet or .nc)")
 
 
 def _parse_position(text: str):
@@ -90,24 +87,21 @@ def read_precise(paths, systems=None) -> dict:
 
 
 def run(args) -> dict:
+    from gnssrel import read_observations
     from gnssrel.audit.summary import audit_log, audit_summary, per_epoch_errors
     from gnssrel.io import writers
-    from gnssrel.timescales import parse_time
+    from gnssrel.progress import step
 
-    for out in (args.output, args.positions):
-        if out:
-            writers.check_output_suffix(out)
+    common.check_outputs(args)
     position = _parse_position(args.position) if args.position else None
-    systems = list(args.systems.upper()) if args.systems else None
-    start = parse_time(args.start, "GPST") if args.start else None
-    end = parse_time(args.end, "GPST") if args.end else None
-    from gnssrel import read_navigation, read_observations
-
-    precise = read_precise(args.precise, systems) if args.precise else None
-    obs_ds = read_observations(args.obs, systems=systems, start=start, end=end)
+    start, end = common.time_window(args)
+    letters = common.parse_systems(args.systems)
+    precise = read_precise(args.precise, list(letters) if letters else None) if args.precise else None
+    nav, present = common.read_navigation_files(args.nav, letters)
+    systems = list(present)          # observed systems without navigation records would void every fix
+    with step(f"reading {args.obs}"):
+        obs_ds = read_observations(args.obs, systems=systems, start=start, end=end)
     obs_ds = _decimate(obs_ds, args.step)
-    navs = [read_navigation(p, systems=systems) for p in args.nav]
-    nav = navs[0] if len(navs) == 1 else type(navs[0]).merge(navs)
     receiver_clocks = None
     if args.receiver_clocks:
         from gnssrel.io.receiver_clocks import read_receiver_clocks
@@ -120,34 +114,53 @@ def run(args) -> dict:
                        elevation_mask_deg=args.elevation_mask, fixes=fixes, precise=precise,
                        receiver_clocks=receiver_clocks)
     summary = audit_summary(result)
-    if args.output:
-        writers.write_table(result.corrections, args.output)
+    times = obs_ds["time"].values
+    if times.size:
+        summary["observations"].update(start=times[0], end=times[-1], time_scale="GPST")
     if args.positions:
         table = per_epoch_errors(result)
         for name, pos in result.positions.items():
             for c in ("x_m", "y_m", "z_m", "clock_m"):
                 table[f"{c[:-2]}_{name.replace('-', '_')}_m"] = pos[c].to_numpy()
         writers.write_table(table, args.positions)
-    if args.summary:
-        writers.write_json(summary, args.summary)
-    if args.json:
-        print(writers.to_json_text(summary))
-    elif not getattr(args, "quiet", False):
-        _print_text(summary)
-    return summary
+    return common.emit(args, summary, result.corrections, _print_text)
 
 
 def _print_text(summary: dict) -> None:
     o = summary["observations"]
-    print(f"observations: {o['n_epochs']} epochs, {o['n_sat']} satellites, systems {''.join(o['systems'])}")
+    span = f", {common.fmt_span(o['start'], o['end'])}" if "start" in o else ""
+    systems = "".join(common.in_system_order(o["systems"]))
+    print(f"audit of a receiver log: {o['n_epochs']} epochs, {o['n_sat']} satellites of {systems}{span}")
     print(f"satellite orbits and clocks: {summary.get('clock_source', 'broadcast')}")
-    for s, f in summary["relativity_k"].items():
-        rms = ", ".join(f"{k} {v:.2f} m" for k, v in f["rms_m"].items())
-        print(f"periodic-term factor {s}: k = {f['k']:.3f} +- {f['sigma']:.3f} (jackknife; expected "
-              f"{f['expected_k']:g}, {f['status']}); residual RMS {rms}")
+    fits = summary["relativity_k"]
+    hypotheses = list(dict.fromkeys(h for f in fits.values() for h in f["rms_m"]))
+    rows, notes = [], []
+    for s in common.in_system_order(fits):
+        f = fits[s]
+        status, _, why = str(f["status"]).partition(":")
+        if why:
+            notes.append(f"{common.system_label(s)}: {status}: {why.strip()}")
+        rows.append((common.system_label(s), common.fmt(f["k"], ".3f"), common.fmt_sigma(f["sigma"]),
+                     f"{f['expected_k']:g}", status, *(common.fmt(f["rms_m"].get(h)) for h in hypotheses)))
+    print("factor k of the periodic relativistic term in the pseudoranges (jackknife sigma; k = 1 expected)")
+    print(common.text_table(("system", "k", "sigma k", "expected k", "status",
+                             *(f"RMS {h} (m)" for h in hypotheses)), rows))
+    for note in notes:
+        print(f"  {note}")
     p = summary["position"]
     if p["median_error_3d_m"] is not None:
-        print(f"median 3-D error vs {p['reference']} position: {p['median_error_3d_m']:.2f} m "
-              f"(without the periodic term {p['median_error_3d_m_without_periodic']:.2f} m)")
-    if summary["receiver_verdict"]:
-        print(f"receiver: {summary['receiver_verdict']}")
+        print(f"median 3-D position error against the {p['reference']} position: {p['median_error_3d_m']:.2f} m "
+              f"(periodic term omitted: {p['median_error_3d_m_without_periodic']:.2f} m)")
+    else:
+        print("no epoch could be solved for a position (too few satellites above the mask?)")
+    fixes = summary.get("receiver_fixes")
+    if fixes and fixes.get("closest"):
+        h = fixes["closest"]
+        print(f"receiver's own fixes follow '{h}' (median distance {fixes['median_distance_m'][h]:.2f} m over "
+              f"{fixes['n_matched'][h]} fixes; the next hypothesis is {fixes['margin_m']:.2f} m farther)")
+    elif fixes:
+        print("receiver's own fixes: none matched an epoch of the log")
+    if summary.get("receiver_clocks"):
+        from gnssrel.jobs.clocks import print_receiver_clocks
+
+        print_receiver_clocks(summary["receiver_clocks"])

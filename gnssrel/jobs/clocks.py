@@ -31,7 +31,7 @@ def add_arguments(parser) -> None:
                         help="precise clocks: SP3 files (e.g. the day before and the day) or RINEX clock files")
     parser.add_argument("--receiver-clocks", metavar="FILE.csv",
                         help="a receiver's own satellite clock corrections (see gnssrel.io.receiver_clocks)")
-    common.add_systems(parser, default=None)
+    common.add_systems(parser)
     common.add_time_window(parser, None, "keep only precise epochs on multiples of this interval (e.g. 300)")
     parser.add_argument("--datum", choices=("robust", "epoch-median"), default="robust",
                         help="per-epoch datum: alternating median/mean (default) or the plain median")
@@ -109,18 +109,33 @@ def run(args) -> dict:
     return common.emit(args, summary, table, _print_text)
 
 
+DATUM_WORDS = {"robust": "alternating per-epoch median and per-satellite mean",
+               "epoch-median": "per-epoch median"}
+
+
 def _print_text(summary: dict) -> None:
     if "by_system" in summary:
-        print(f"precise minus broadcast clocks ({summary['n_epochs']} epochs, datum: {summary['datum_method']})")
-        print(f"{'sys':3} {'n_sat':>5} {'med std ns':>10} {'max std ns':>10} {'k':>7} {'sigma':>6}  convention")
-        for letter, e in summary["by_system"].items():
-            print(f"{letter:3} {e['n_sat']:5d} {common.fmt(e['median_std_ns']):>10} {common.fmt(e['max_std_ns']):>10} "
-                  f"{common.fmt(e['convention_k'], '.3f'):>7} {common.fmt(e['convention_k_sigma'], '.3f'):>6}  "
-                  f"{e['convention']}")
-    check = summary.get("receiver_clocks")
-    if check:
-        print("receiver satellite clocks")
-        for letter, e in check["by_system"].items():
-            print(f"{letter:3} {e['n_sat']:5d} k = {common.fmt(e['convention_k'], '.3f')} +- "
-                  f"{common.fmt(e['convention_k_sigma'], '.3f')} (expected {e['expected_k']:g}): {e['status']}; "
-                  f"week crossover: {e['week_crossover']}")
+        span = common.fmt_span(summary["first_epoch_gpst"], summary["last_epoch_gpst"])
+        print(f"precise minus broadcast satellite clocks: {summary['n_epochs']} epochs, {span}")
+        print(f"precise clocks: {summary.get('precise_source', '?')}")
+        rows = [(common.system_label(s), e["n_sat"], common.fmt(e["median_std_ns"], ".3f"),
+                 common.fmt(e["max_std_ns"], ".3f"), common.fmt(e["convention_k"], ".3f"),
+                 common.fmt_sigma(e["convention_k_sigma"]), e["convention"])
+                for s, e in ((s, summary["by_system"][s]) for s in common.in_system_order(summary["by_system"]))]
+        print(common.text_table(("system", "satellites", "median std (ns)", "max std (ns)",
+                                 "k (periodic term)", "sigma k", "convention"), rows))
+        print("k: fitted factor of the periodic term in the precise clocks (0: left out, as broadcast "
+              "polynomials do; 1: included)")
+    if summary.get("receiver_clocks"):
+        print_receiver_clocks(summary["receiver_clocks"])
+
+
+def print_receiver_clocks(check: dict) -> None:
+    """The table of a receiver's own satellite-clock check (also used by ``gnssrel audit``)."""
+    print("receiver's own satellite clock table: fitted factor k of the periodic term")
+    rows = [(common.system_label(s), e["n_sat"], common.fmt(e["convention_k"], ".3f"),
+             common.fmt_sigma(e["convention_k_sigma"]), f"{e['expected_k']:g}", e["status"],
+             str(e["week_crossover"]))
+            for s, e in ((s, check["by_system"][s]) for s in common.in_system_order(check["by_system"]))]
+    print(common.text_table(("system", "satellites", "k (periodic term)", "sigma k", "expected k",
+                             "status", "week crossover"), rows))

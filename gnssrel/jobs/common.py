@@ -14,15 +14,23 @@ from gnssrel.constants import SYSTEM_ORDER
 from gnssrel.errors import GnssrelInputError, NoDataError
 
 
-def add_systems(parser, default=SYSTEM_ORDER) -> None:
-    parser.add_argument("--systems", default=default, metavar="LETTERS",
-                        help=f"systems to include, e.g. GE (default: {default or 'all in the files'})")
+SYSTEMS_HELP = f"systems to use, letters of {SYSTEM_ORDER}, e.g. GE (default: every system in the files)"
+START_HELP = ("first epoch, GPST unless a scale follows (e.g. '2020-06-25T06:00 UTC'); "
+              "default: the start of the data")
+END_HELP = "last epoch, same form as --start; default: the end of the data"
+JSON_HELP = "print the summary as JSON on stdout instead of the text table"
+SUMMARY_HELP = "write the summary as JSON to this file"
+SIGMA_FLOOR = 0.001
+"""Uncertainties below this print as '< 0.001' rather than as a misleading 0.000."""
+
+
+def add_systems(parser) -> None:
+    parser.add_argument("--systems", default=None, metavar="LETTERS", help=SYSTEMS_HELP)
 
 
 def add_time_window(parser, step_default: float | None = 30.0, step_help: str | None = None) -> None:
-    parser.add_argument("--start", metavar="ISO", help="first epoch (GPST unless a scale follows, "
-                        "e.g. '2020-06-25T06:00 UTC'; default: the start of the data)")
-    parser.add_argument("--end", metavar="ISO", help="last epoch (same form; default: the end of the data)")
+    parser.add_argument("--start", metavar="TIME", help=START_HELP)
+    parser.add_argument("--end", metavar="TIME", help=END_HELP)
     if step_help is not False:
         parser.add_argument("--step", type=float, default=step_default, metavar="SECONDS",
                             help=step_help or f"epoch interval (default {step_default:g} s)")
@@ -36,16 +44,21 @@ def add_include_unhealthy(parser) -> None:
 
 def add_outputs(parser, table_help: str = "table to write (.csv, .parquet or .nc)") -> None:
     parser.add_argument("--output", metavar="FILE", help=table_help)
-    parser.add_argument("--summary", metavar="FILE.json", help="write the summary as JSON")
-    parser.add_argument("--json", action="store_true", help="print the summary as JSON instead of a table")
+    parser.add_argument("--summary", metavar="FILE.json", help=SUMMARY_HELP)
+    add_json(parser)
+
+
+def add_json(parser, help_text: str = JSON_HELP) -> None:
+    parser.add_argument("--json", action="store_true", help=help_text)
 
 
 def check_outputs(args) -> None:
     """Refuse output names we cannot write before any work is done."""
     from gnssrel.io.writers import check_output_suffix
 
-    if getattr(args, "output", None):
-        check_output_suffix(args.output)
+    for name in ("output", "positions"):
+        if getattr(args, name, None):
+            check_output_suffix(getattr(args, name))
     if getattr(args, "summary", None):
         check_output_suffix(args.summary, allowed=(".json",))
     step = getattr(args, "step", None)
@@ -116,9 +129,39 @@ def fmt(value, spec: str = ".2f") -> str:
     try:
         if value is None or (isinstance(value, float) and np.isnan(value)):
             return "-"
-        return format(value, spec)
+        text = format(value, spec)
     except (TypeError, ValueError):
         return "-"
+    if text.startswith("-") and text[1:2].isdigit():
+        try:
+            if float(text) == 0:
+                return text[1:]                      # '-0.000' reads as a sign that is not there
+        except ValueError:
+            pass
+    return text
+
+
+def fmt_sigma(sigma, digits: int = 3) -> str:
+    """An uncertainty: '-' when unknown, '< 0.001' when it would print as zero."""
+    if sigma is None or not np.isfinite(sigma):
+        return "-"
+    floor = 10.0 ** -digits
+    return f"< {floor:.{digits}f}" if abs(sigma) < floor / 2 else f"{abs(sigma):.{digits}f}"
+
+
+def fmt_k(k, sigma, digits: int = 3) -> str:
+    """A fitted factor with its uncertainty: '1.095 ± 0.093', '1.000 (σ < 0.001)', '0.200 (σ -)'."""
+    value = fmt(None if k is None else round(float(k), digits) + 0.0, f".{digits}f")  # no '-0.000'
+    text = fmt_sigma(sigma, digits)
+    return f"{value} ± {text}" if text[0].isdigit() else f"{value} (σ {text})"
+
+
+def fmt_span(start, end) -> str:
+    """'2020-06-25 06:00:00 to 2020-06-25 08:00:00 GPST' (the date once when both share it)."""
+    a, b = fmt_time(start).replace("T", " "), fmt_time(end).replace("T", " ")
+    if a[:10] == b[:10]:
+        b = b[11:]
+    return f"{a} to {b} GPST"
 
 
 def fmt_time(t) -> str:
@@ -131,3 +174,33 @@ def fmt_time(t) -> str:
 def in_system_order(letters) -> list[str]:
     """System letters in the order gnssrel shows them (G E C J R)."""
     return sorted(letters, key=lambda s: SYSTEM_ORDER.index(s) if s in SYSTEM_ORDER else 99)
+
+
+def system_label(letter: str) -> str:
+    """'G GPS' for the first column of the text tables."""
+    from gnssrel.constants import SYSTEMS
+
+    system = SYSTEMS.get(letter)
+    return f"{letter} {system.name}" if system else letter
+
+
+def _numeric(cell: str) -> bool:
+    try:
+        float(cell.removeprefix("< "))
+        return True
+    except ValueError:
+        return cell == "-"
+
+
+def text_table(headers, rows) -> str:
+    """Aligned columns for the terminal: numeric columns right-aligned, text left-aligned.
+
+    ``rows`` hold cells already formatted (see :func:`fmt`); the headers carry the units.
+    """
+    cells = [list(map(str, headers))] + [list(map(str, r)) for r in rows]
+    n = len(headers)
+    widths = [max(len(row[k]) for row in cells) for k in range(n)]
+    right = [bool(rows) and all(_numeric(row[k]) for row in cells[1:]) for k in range(n)]
+    lines = ["  ".join(c.rjust(w) if r else c.ljust(w) for c, w, r in zip(row, widths, right)).rstrip()
+             for row in cells]
+    return "\n".join(lines)

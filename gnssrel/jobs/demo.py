@@ -16,6 +16,7 @@ import time
 from pathlib import Path
 
 from gnssrel.errors import GnssrelInputError
+from gnssrel.jobs import common
 
 HELP = "the whole chain on the bundled invented scenario (sample_logs/), as a report"
 DESCRIPTION = (
@@ -35,7 +36,7 @@ def add_arguments(parser) -> None:
     parser.add_argument("--logs", metavar="DIR", help="scenario folder (default: sample_logs/ of the "
                         "gnssrel source tree, else ./sample_logs)")
     parser.add_argument("--plots", metavar="DIR", help="also copy the PNG figures into this folder")
-    parser.add_argument("--json", action="store_true", help="print summary.json on stdout")
+    common.add_json(parser, "print summary.json on stdout instead of the findings")
 
 
 def find_sample_logs(given=None) -> Path:
@@ -77,9 +78,10 @@ def scenario_description(folder: Path) -> tuple[str, str | None]:
         manifest = json.loads(path.read_text(encoding="utf-8"))
     except (OSError, ValueError):
         return "gnssrel demo report", None
-    sites = ", ".join(s.get("place", s.get("marker", "?")) for s in manifest.get("sites", []))
+    sites = " and ".join(f"{s.get('marker', '?')} at {s.get('place', '?')}".replace(", ", " (", 1)
+                         + (")" if ", " in s.get("place", "") else "") for s in manifest.get("sites", []))
     text = (f"{manifest.get('notice', '')} Scenario: {_when(manifest.get('start'))} to "
-            f"{_when(manifest.get('end'))} {manifest.get('time_scale', 'GPST')}, receivers at {sites}. "
+            f"{_when(manifest.get('end'))} {manifest.get('time_scale', 'GPST')}, receivers {sites}. "
             "The verdicts below come from gnssrel's analysis of the files, not from the scenario's manifest.")
     return "gnssrel demo report: an invented scenario (not real data)", text.strip()
 
@@ -91,11 +93,12 @@ def _when(text) -> str:
 def run(args) -> dict:
     from gnssrel.io.writers import to_json_text
     from gnssrel.jobs.report import analyse, print_findings
-    from gnssrel.report.builder import write_report
+    from gnssrel.report.builder import check_report_folder, write_report
 
     quiet = args.quiet or args.json
     say = (lambda text: None) if quiet else (lambda text: print(text, flush=True))
     began = time.monotonic()
+    check_report_folder(args.output)
     folder = find_sample_logs(args.logs)
     files = scenario_files(folder)
     title, description = scenario_description(folder)

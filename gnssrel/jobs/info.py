@@ -21,7 +21,9 @@ LIBRARIES = ("numpy", "scipy", "pandas", "xarray", "matplotlib", "hatanaka", "py
 
 
 def add_arguments(parser):
-    parser.add_argument("--json", action="store_true", help="print the information as JSON")
+    from gnssrel.jobs import common
+
+    common.add_json(parser, "print the information as JSON on stdout instead of the text")
 
 
 def collect() -> dict:

@@ -86,15 +86,19 @@ def _states_summary(ds, start, end):
 
 
 def _print_table(summary):
+    span = common.fmt_span(summary["start"], summary["end"])
+    systems = common.in_system_order(summary["by_system"])
     if summary["mode"] == "states":
-        print(f"{'system':<7}{'satellites':>11}{'epochs ok':>11}")
-        for letter, row in summary["by_system"].items():
-            print(f"{letter:<7}{row['n_sat']:>11d}{100 * row['ok_share']:>10.1f}%")
+        print(f"broadcast satellite states: {summary['n_epochs']} epochs, {span}")
+        rows = [(common.system_label(s), summary["by_system"][s]["n_sat"],
+                 common.fmt(100 * summary["by_system"][s]["ok_share"], ".1f")) for s in systems]
+        print(common.text_table(("system", "satellites", "epochs with a state (%)"), rows))
         return
-    print(f"{'system':<7}{'satellites':>11}{'median 3D RMS':>15}{'max 3D RMS':>12}{'coverage':>10}")
-    for letter, row in summary["by_system"].items():
-        print(f"{letter:<7}{row['n_sat']:>11d}{row['median_rms_3d_m']:>13.2f} m"
-              f"{row['max_rms_3d_m']:>10.2f} m{100 * row['median_coverage']:>9.0f}%")
+    print(f"broadcast minus precise (SP3) orbits: {summary['n_epochs']} SP3 epochs, {span}")
+    rows = [(common.system_label(s), e["n_sat"], common.fmt(e["median_rms_3d_m"]), common.fmt(e["max_rms_3d_m"]),
+             common.fmt(100 * e["median_coverage"], ".0f"))
+            for s, e in ((s, summary["by_system"][s]) for s in systems)]
+    print(common.text_table(("system", "satellites", "median 3D RMS (m)", "max 3D RMS (m)", "coverage (%)"), rows))
 
 
 def run(args) -> dict:

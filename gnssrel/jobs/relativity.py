@@ -104,14 +104,16 @@ def run(args) -> dict:
 
 
 def _print_text(summary: dict) -> None:
-    print(f"relativity from {summary['states']} states, {summary['n_epochs']} epochs "
-          f"({common.fmt_time(summary['start'])} .. {common.fmt_time(summary['end'])} GPST)")
-    print(f"{'sys':3} {'sats':>4} {'rate':>12} {'us/day':>8} {'max periodic ns':>16} {'max icd-state ns':>17}")
+    print(f"relativistic clock terms from {summary['states']} states: {summary['n_epochs']} epochs "
+          f"every {summary['step_s']:g} s, {common.fmt_span(summary['start'], summary['end'])}")
+    rows = []
     for letter in common.in_system_order(summary["by_system"]):
         row = summary["by_system"][letter]
         sats = [v for s, v in summary["satellites"].items() if s[0] == letter]
         periodic = max(v["periodic_max_abs_ns"] for v in sats)
         diffs = [v["icd_vs_state_max_diff_ns"] for v in sats if v["icd_vs_state_max_diff_ns"] is not None]
-        diff = max(diffs) if diffs else None
-        print(f"{letter:3} {row['satellites']:4d} {row['median_rate_total']:12.5e} "
-              f"{row['median_us_per_day_total']:8.3f} {periodic:16.2f} {common.fmt(diff, '.3f'):>17}")
+        rows.append((common.system_label(letter), row["satellites"], common.fmt(row["median_rate_total"], ".5e"),
+                     common.fmt(row["median_us_per_day_total"], ".3f"), common.fmt(periodic, ".2f"),
+                     common.fmt(max(diffs) if diffs else None, ".3f")))
+    print(common.text_table(("system", "satellites", "rate vs TT (s/s)", "rate (µs/day)",
+                             "max periodic (ns)", "max spec - state (ns)"), rows))

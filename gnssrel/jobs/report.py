@@ -14,6 +14,7 @@ from pathlib import Path
 import numpy as np
 
 from gnssrel.errors import FileFormatError, GnssrelInputError
+from gnssrel.jobs import common
 
 HELP = "the HTML report with its figures and tables, from your own files"
 DESCRIPTION = (
@@ -40,7 +41,7 @@ def add_arguments(parser) -> None:
     parser.add_argument("--title", default=None, help="report title (default: from the files)")
     parser.add_argument("--output", required=True, metavar="DIR", help="report folder to write")
     parser.add_argument("--plots", metavar="DIR", help="also copy the PNG figures into this folder")
-    parser.add_argument("--json", action="store_true", help="print summary.json on stdout")
+    common.add_json(parser, "print summary.json on stdout instead of the findings")
 
 
 def _progress(args):
@@ -234,8 +235,9 @@ def print_findings(content, report_path) -> None:
 
 def run(args) -> dict:
     from gnssrel.io.writers import to_json_text
-    from gnssrel.report.builder import write_report
+    from gnssrel.report.builder import check_report_folder, write_report
 
+    check_report_folder(args.output)
     progress = _progress(args)
     content = analyse(args.nav, args.precise, args.obs, args.receiver_fixes, args.receiver_clocks,
                       title=args.title, progress=progress)

@@ -5,6 +5,8 @@ from __future__ import annotations
 import json
 import logging
 
+from gnssrel.jobs import common
+
 HELP = "write an invented, self-consistent scenario: nav, SP3, clock, receiver logs and fixes"
 DESCRIPTION = (
     "Write a complete invented scenario to a folder: a RINEX 3.04 mixed navigation file "
@@ -22,22 +24,25 @@ def add_arguments(parser):
 
     parser.add_argument("--output", required=True, metavar="DIR", help="folder to write (created if needed)")
     parser.add_argument("--seed", type=int, default=DEFAULT_SEED, help=f"random seed (default {DEFAULT_SEED})")
-    parser.add_argument("--hours", type=float, default=3.0, help="length of the receiver logs, h (default 3)")
-    parser.add_argument("--interval", type=float, default=30.0, metavar="S",
-                        help="observation interval, s (default 30)")
-    parser.add_argument("--json", action="store_true", help="print the scenario manifest as JSON on stdout")
+    parser.add_argument("--hours", type=float, default=3.0, metavar="HOURS",
+                        help="length of the receiver logs (default 3 h)")
+    parser.add_argument("--step", "--interval", dest="interval", type=float, default=30.0, metavar="SECONDS",
+                        help="observation interval of the receiver logs (default 30 s)")
+    common.add_json(parser, "print the scenario manifest as JSON on stdout instead of the text")
 
 
 def run(args) -> dict:
     from gnssrel.io.writers import to_json_text
     from gnssrel.simulate.generate import write_scenario
+    from gnssrel.timescales import parse_time
 
     manifest = write_scenario(args.output, seed=args.seed, hours=args.hours, interval_s=args.interval)
     if args.json:
         print(to_json_text(manifest))
     elif not args.quiet:
-        print(f"wrote {len(manifest['files'])} files to {args.output} "
-              f"({manifest['start']} to {manifest['end']} GPST, seed {args.seed})")
+        print(f"invented scenario: {len(manifest['files'])} files in {args.output}, "
+              f"{common.fmt_span(parse_time(manifest['start'], 'GPST'), parse_time(manifest['end'], 'GPST'))}, "
+              f"seed {args.seed}")
         for r in manifest["receivers"]:
             state = "faulty: periodic term " + r["fault"]["mode"] if r["faulty"] else "correct firmware"
             print(f"  receiver {r['marker']}: {state}; its fixes are off by "

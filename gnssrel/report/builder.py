@@ -42,14 +42,22 @@ def write_report_files(content, folder: Path, figures=None) -> dict:
     return {"figures": [f.key for f in figures], "tables": list(tables)}
 
 
-def write_report(content, output, plots=None) -> Path:
-    """Write the report folder ``output`` atomically (see module text); with ``plots``, copy the PNGs there."""
+def check_report_folder(output) -> Path:
+    """Refuse a report folder we could not create (its parent missing, or a file of that name);
+    the jobs call this before any work.  Returns the parent folder."""
     output = Path(output)
     parent = output.parent if str(output.parent) else Path(".")
     if not parent.is_dir():
         raise GnssrelInputError("the folder to write the report into does not exist", parent)
     if output.exists() and not output.is_dir():
         raise GnssrelInputError("exists and is not a folder: choose another --output", output)
+    return parent
+
+
+def write_report(content, output, plots=None) -> Path:
+    """Write the report folder ``output`` atomically (see module text); with ``plots``, copy the PNGs there."""
+    output = Path(output)
+    parent = check_report_folder(output)
     staging = Path(tempfile.mkdtemp(prefix=f".{output.name}.", suffix=".part", dir=parent))
     try:
         written = write_report_files(content, staging)

@@ -21,6 +21,8 @@ def audit_figure(receiver) -> ReportFigure | None:
     summary = receiver.audit_summary
     if not summary:
         return None
+    from gnssrel.jobs.common import fmt_k
+
     fits = summary["relativity_k"]
     errors = receiver.position_errors
     fig = new_figure(9.4, 4.9)
@@ -31,7 +33,7 @@ def audit_figure(receiver) -> ReportFigure | None:
         rms = [fits[s]["rms_m"].get(h, np.nan) for h in FIT_HYPOTHESES]
         xs = np.arange(len(FIT_HYPOTHESES)) + (j - (len(letters) - 1) / 2) * width
         ax_rms.bar(xs, rms, width=width * 0.92, color=system_colour(s),
-                   label=f"{system_name(s)}: k = {fits[s]['k']:.2f} ± {fits[s]['sigma']:.2f}")
+                   label=f"{system_name(s)}: k = {fmt_k(fits[s]['k'], fits[s]['sigma'], 2)}")
     ax_rms.set_xticks(np.arange(len(FIT_HYPOTHESES)))
     ax_rms.set_xticklabels(FIT_HYPOTHESES)
     ax_rms.set_xlabel("periodic term in the model (hypothesis)")
@@ -81,7 +83,9 @@ def _caption(receiver, fits) -> str:
         fix_text = (f" The receiver's own fixes (vermilion dots) lie closest to '{fixes['closest']}' "
                     f"(median distance {d[fixes['closest']]:.2f} m, margin {fixes['margin_m']:.2f} m over the "
                     "next hypothesis).")
-    ks = "; ".join(f"{system_name(k)} k = {v['k']:.3f} ± {v['sigma']:.3f}" for k, v in fits.items())
+    from gnssrel.jobs.common import fmt_k, in_system_order
+
+    ks = "; ".join(f"{system_name(k)} k = {fmt_k(fits[k]['k'], fits[k]['sigma'])}" for k in in_system_order(fits))
     return (
         f"(a) Receiver {receiver.name}: RMS of the ionosphere-free pseudorange residuals after fitting a receiver "
         "clock per epoch and an offset per satellite, with the periodic term F e √A sin E applied as "

@@ -80,7 +80,9 @@ def clocks_figure(content) -> ReportFigure | None:
                                 markeredgewidth=1.4, label="receiver's own table")],
                 loc="lower right", fontsize=7)
     panel_letter(ax_k, "b" if ax_series.get_visible() else "a")
-    listing = "; ".join(f"{r['series']} {r['system']}: k = {round(r['k'], 3) + 0.0:.3f} ± {r['sigma']:.3f} "
+    from gnssrel.jobs.common import fmt_k
+
+    listing = "; ".join(f"{r['series']} {r['system']}: k = {fmt_k(r['k'], r['sigma'])} "
                         f"({r['convention']})" for r in rows)
     source = content.clock_source or "the precise clocks"
     caption = (

@@ -83,9 +83,9 @@ def coverage_figure(content) -> ReportFigure:
         handles.insert(1, Patch(facecolor="#555555", label="observed by a receiver (ionosphere-free code)"))
     handles += [Patch(facecolor=system_colour(s), label=system_name(s)) for s in letters]
     fig.legend(handles=handles, loc="outside lower center", ncols=min(len(handles), 4), fontsize=7.5)
-    n_obs = "" if seen is None else (f" A satellite was observed by at least one receiver at "
-                                     f"{100 * seen.any(axis=1).mean():.0f}% of the epochs with "
-                                     f"{np.median(seen.sum(axis=1)):.0f} satellites in the median epoch.")
+    n_obs = "" if seen is None else (f" The receivers observed at least one satellite at "
+                                     f"{100 * seen.any(axis=1).mean():.0f}% of the epochs, and "
+                                     f"{np.median(seen.sum(axis=1)):.0f} satellites at a typical (median) epoch.")
     caption = (
         "Each row is one satellite, grouped and coloured by system. Pale band: the broadcast navigation data "
         "give a valid state (healthy record within its fit interval); solid band: at least one receiver log "

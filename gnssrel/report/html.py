@@ -48,14 +48,34 @@ def _fmt(value) -> str:
     return html.escape(str(value))
 
 
+def _column_formatter(name: str, values):
+    """One number format per column, so the digits line up: σ columns print '< 0.001' for tiny values."""
+    finite = [abs(float(v)) for v in values
+              if isinstance(v, (float, np.floating)) and not isinstance(v, bool) and math.isfinite(v)]
+    if not finite:
+        return _fmt
+    big = max(finite)
+    if "σ" in name:
+        from gnssrel.jobs.common import fmt_sigma
+
+        return lambda v: _fmt(v) if not isinstance(v, (float, np.floating)) or math.isnan(v) else html.escape(fmt_sigma(v))
+    if big >= 1e6 or (0 < big < 1e-3):
+        return lambda v: f"{v:.4g}" if isinstance(v, (float, np.floating)) and math.isfinite(v) else _fmt(v)
+    digits = 1 if big >= 100 else 3
+    return lambda v: (f"{round(float(v), digits) + 0.0:.{digits}f}"
+                      if isinstance(v, (float, np.floating)) and math.isfinite(v) else _fmt(v))
+
+
 def table_html(df, max_rows: int = 40) -> str:
     cols = list(df.columns)
     text = [not pd.api.types.is_numeric_dtype(df[c]) for c in cols]   # text columns read left-aligned
     cls = [' class="text"' if t else "" for t in text]
     head = "".join(f"<th{k}>{html.escape(str(c))}</th>" for c, k in zip(cols, cls))
+    shown = df.head(max_rows)
+    formats = [_fmt if t else _column_formatter(str(c), shown[c].tolist()) for c, t in zip(cols, text)]
     body = []
-    for row in df.head(max_rows).itertuples(index=False):
-        cells = [f"<td{k}>{_fmt(v)}</td>" for v, k in zip(row, cls)]
+    for row in shown.itertuples(index=False):
+        cells = [f"<td{k}>{f(v)}</td>" for v, k, f in zip(row, cls, formats)]
         body.append("<tr>" + "".join(cells) + "</tr>")
     more = f'<p class="csv">{len(df) - max_rows} more rows in the CSV.</p>' if len(df) > max_rows else ""
     return f"<table><thead><tr>{head}</tr></thead><tbody>{''.join(body)}</tbody></table>{more}"

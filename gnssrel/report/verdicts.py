@@ -94,8 +94,10 @@ def receiver_verdict(name: str, audit_summary: dict | None, clock_check: dict | 
     if fixes and fixes.get("closest"):
         parts.append(f"fixes closest to '{fixes['closest']}', margin {margin:.2f} m")
     if clock_check:
-        ks = ", ".join(f"{s} {_plain(e['convention_k']):.3f} ± {abs(_plain(e['convention_k_sigma'])):.3f}"
-                       for s, e in clock_check["by_system"].items())
+        from gnssrel.jobs.common import fmt_k, in_system_order
+
+        ks = ", ".join(f"{s} {fmt_k(clock_check['by_system'][s]['convention_k'], clock_check['by_system'][s]['convention_k_sigma'])}"
+                       for s in in_system_order(clock_check["by_system"]))
         parts.append(f"clock table k = {ks}")
     detail = f" ({'; '.join(parts)})" if parts else ""
     if faulty is None:
