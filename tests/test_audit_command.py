@@ -39,7 +39,10 @@ def test_summary_keys_and_outputs_on_real_log(tmp_path, capsys):
     summary = json.loads(summary_path.read_text())
     assert printed == summary
     assert set(summary) >= {"observations", "relativity_k", "position", "receiver_verdict"}
-    assert set(summary["observations"]) == {"n_epochs", "n_sat", "systems", "start", "end", "time_scale"}
+    assert set(summary["observations"]) == {"n_epochs", "n_sat", "systems", "start", "end", "time_scale",
+                                            "epochs_in_file_read", "skipped_epochs", "skipped_epoch_lines",
+                                            "reader_warnings"}
+    assert summary["observations"]["skipped_epochs"] == 0
     assert summary["observations"]["n_epochs"] == 37 and summary["observations"]["systems"] == ["G"]
     assert set(summary["relativity_k"]["G"]) >= {"k", "sigma", "rms_m"}
     assert set(summary["relativity_k"]["G"]["rms_m"]) == {"applied", "omitted", "reversed", "doubled"}

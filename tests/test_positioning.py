@@ -109,3 +109,18 @@ def test_too_few_satellites_gives_nan_not_an_error():
     obs, times, _ = _synthetic(n_epoch=3, n_sat=3)
     pos = single_point_positions(obs, times.size, times)
     assert pos[["x_m", "y_m", "z_m"]].isna().all().all()
+
+
+def test_a_system_without_navigation_records_does_not_void_the_fixes(refdata):
+    # NYA1 2024-05-03 observed GPS + Galileo, given only the GPS navigation file: Galileo has no
+    # satellite states, so it must simply drop out (it used to make every epoch singular).
+    import gnssrel
+    from gnssrel.audit.summary import audit_log, audit_summary
+
+    obs = gnssrel.read_observations(refdata("2024-124/NYA100NOR_S_20241240000_01D_30S_MO.crx.gz"),
+                                    systems="GE", start=np.datetime64("2024-05-03T06:00", "ns"),
+                                    end=np.datetime64("2024-05-03T06:30", "ns"))
+    nav = gnssrel.read_navigation(refdata("2024-124/NYA100NOR_S_20241240000_01D_GN.rnx.gz"))
+    summary = audit_summary(audit_log(obs, nav))
+    assert summary["position"]["n_epochs_solved"] == obs.sizes["time"]
+    assert summary["position"]["median_error_3d_m"] < 4.0   # issue 5 target for NYA1 (header position)

@@ -28,6 +28,7 @@ import numpy as np
 import pandas as pd
 
 from gnssrel.audit.corrections import atmosphere_m, line_of_sight, modelled_pseudorange_m, resolve_terms
+from gnssrel.constants import SYSTEM_ORDER
 
 SIGMA0_M = 1.0
 MAX_REJECTION_ROUNDS = 4
@@ -53,11 +54,17 @@ class _Problem:
         self.mask_rad = np.radians(elevation_mask_deg)
         self.iono_header = ionosphere_header
         self.epoch = obs["epoch"]
-        systems = sorted(np.unique(obs["system"]))
-        self.n_unknown = 3 + len(systems)            # x, y, z, clock, one offset per extra system
-        self.sys_index = np.searchsorted(systems, obs["system"])
+        usable = np.isfinite(obs["pseudorange_m"]) & np.all(np.isfinite(obs["satellite_ecef_m"]), axis=1)
+        # The receiver clock refers to the first usable system in G E C J R order; each other
+        # system gets an offset. A system with no usable observation (e.g. no navigation
+        # records) gets no unknown at all, so it cannot make the fixes singular.
+        present = set(np.unique(obs["system"][usable]).tolist())
+        systems = [s for s in SYSTEM_ORDER if s in present]
+        self.n_unknown = 3 + max(len(systems), 1)    # x, y, z, clock, one offset per extra system
+        lookup = {s: k for k, s in enumerate(systems)}
+        self.sys_index = np.array([lookup.get(s, -1) for s in obs["system"]], dtype=np.int64)
         self.base = np.zeros((self.epoch.size, self.n_unknown))
-        self.base[:, 3] = 1.0
+        self.base[self.sys_index >= 0, 3] = 1.0
         extra = self.sys_index > 0
         self.base[np.flatnonzero(extra), 3 + self.sys_index[extra]] = 1.0
 
@@ -90,7 +97,17 @@ class _Problem:
             design = np.where((weight > 0)[:, None], design, 0.0)   # no NaN from unused rows
             n_used = np.bincount(self.epoch, weights=(weight > 0).astype(float), minlength=self.n_epoch)
             n_mat, rhs = _normal_equations(design, resid, weight, self.epoch, self.n_epoch)
-            solvable = n_used >= self.n_unknown
+            # A system with no usable observation at an epoch (e.g. observed but without
+            # navigation records) leaves its clock column empty: hold that unknown where it is
+            # (unit diagonal, zero right-hand side) and count only the unknowns really estimated.
+            k = np.arange(self.n_unknown)
+            empty = n_mat[:, k, k] == 0.0
+            empty[:, :4] = False
+            epochs_empty, columns_empty = np.nonzero(empty)
+            n_mat[epochs_empty, columns_empty, columns_empty] = 1.0
+            n_estimated = self.n_unknown - empty.sum(axis=1)
+            self.n_estimated = n_estimated
+            solvable = n_used >= n_estimated
             solvable[solvable] &= np.linalg.cond(n_mat[solvable]) < 1e12
             step = np.zeros_like(state)
             if solvable.any():
@@ -127,7 +144,7 @@ def single_point_positions(obs: dict, n_epoch: int, times, terms=None, elevation
         worst = _epoch_max_index(post, epoch, n_epoch)
         limit = np.maximum(reject_m, 5.0 / np.sqrt(np.where(weight > 0, weight, np.inf)))  # 5 a-priori sigma
         ep_w = epoch[worst]
-        bad = worst[(post[worst] > limit[worst]) & (n_used[ep_w] > problem.n_unknown)]
+        bad = worst[(post[worst] > limit[worst]) & (n_used[ep_w] > problem.n_estimated[ep_w])]
         if bad.size == 0:
             break
         active[bad] = False

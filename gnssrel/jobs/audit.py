@@ -101,6 +101,8 @@ def run(args) -> dict:
     systems = list(present)          # observed systems without navigation records would void every fix
     with step(f"reading {args.obs}"):
         obs_ds = read_observations(args.obs, systems=systems, start=start, end=end)
+    for warning in obs_ds.attrs.get("warnings", []):   # header/body disagreements, skipped epochs
+        log.warning("%s: %s", args.obs, warning)
     obs_ds = _decimate(obs_ds, args.step)
     receiver_clocks = None
     if args.receiver_clocks:
@@ -140,8 +142,10 @@ def _print_text(summary: dict) -> None:
         status, _, why = str(f["status"]).partition(":")
         if why:
             notes.append(f"{common.system_label(s)}: {status}: {why.strip()}")
-        rows.append((common.system_label(s), common.fmt(f["k"], ".3f"), common.fmt_sigma(f["sigma"]),
-                     f"{f['expected_k']:g}", status, *(common.fmt(f["rms_m"].get(h)) for h in hypotheses)))
+        fitted = f.get("n_sat", 3) >= 3           # fewer satellites: no fit worth printing
+        rows.append((common.system_label(s), common.fmt(f["k"] if fitted else None, ".3f"),
+                     common.fmt_sigma(f["sigma"]), f"{f['expected_k']:g}", status,
+                     *(common.fmt(f["rms_m"].get(h) if fitted else None) for h in hypotheses)))
     print("factor k of the periodic relativistic term in the pseudoranges (jackknife sigma; k = 1 expected)")
     print(common.text_table(("system", "k", "sigma k", "expected k", "status",
                              *(f"RMS {h} (m)" for h in hypotheses)), rows))
