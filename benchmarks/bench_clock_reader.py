@@ -13,20 +13,14 @@ per-line parser) is missed, 0 otherwise, 2 when the data is absent.
 from __future__ import annotations
 
 import io
-import os
 import sys
-import time
 from pathlib import Path
 
 import numpy as np
+from _common import REFDATA, best_of
 
 TARGET_S = 1.5
 RELATIVE = "2020-177/GRG0MGXFIN_20201770000_01D_30S_CLK.CLK.gz"
-
-
-def _refdata() -> Path:
-    root = Path(__file__).resolve().parents[1]
-    return Path(os.environ.get("GNSSREL_REFDATA", root.parent / "shared" / "refdata"))
 
 
 def per_line_reference(path: Path) -> dict:
@@ -62,26 +56,16 @@ def pandas_fwf(path: Path):
                                  (24, 34), (34, 37), (40, 59), (60, 79)])
 
 
-def _best_of(fn, repeats):
-    best = np.inf
-    result = None
-    for _ in range(repeats):
-        start = time.perf_counter()
-        result = fn()
-        best = min(best, time.perf_counter() - start)
-    return best, result
-
-
 def main() -> int:
-    path = _refdata() / RELATIVE
+    path = REFDATA / RELATIVE
     if not path.exists():
         print(f"reference data absent: {path}")
         return 2
     from gnssrel.io.rinex_clock import read_rinex_clock
 
-    t_ours, ds = _best_of(lambda: read_rinex_clock(path), 3)
-    t_ref, ref = _best_of(lambda: per_line_reference(path), 1)
-    t_fwf, fwf = _best_of(lambda: pandas_fwf(path), 1)
+    t_ours, ds = best_of(lambda: read_rinex_clock(path), 3)
+    t_ref, ref = best_of(lambda: per_line_reference(path), 1)
+    t_fwf, fwf = best_of(lambda: pandas_fwf(path), 1)
 
     n = int(np.isfinite(ds["clock_s"]).sum())
     ours = ds["clock_s"]

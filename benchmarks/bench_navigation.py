@@ -10,25 +10,20 @@ when the target is missed, 0 otherwise (2 when the data is absent).
 from __future__ import annotations
 
 import logging
-import os
 import sys
 import time
 import warnings
-from pathlib import Path
+
+from _common import REFDATA
 
 TARGET_RATIO = 20.0
 RELATIVE = "2020-177/MOJN00DNK_R_20201770000_01D_MN.rnx.gz"
 
 
-def _refdata() -> Path:
-    root = Path(__file__).resolve().parents[1]
-    return Path(os.environ.get("GNSSREL_REFDATA", root.parent / "shared" / "refdata"))
-
-
 def main() -> int:
-    path = _refdata() / RELATIVE
+    path = REFDATA / RELATIVE
     if not path.exists():
-        print(f"reference file {RELATIVE} not found under {_refdata()}")
+        print(f"reference file {RELATIVE} not found under {REFDATA}")
         return 2
     import georinex
 

@@ -17,14 +17,14 @@ from __future__ import annotations
 
 import argparse
 import json
-import os
 import subprocess
 import sys
 import time
 from pathlib import Path
 
+from _common import REFDATA
+
 ROOT = Path(__file__).resolve().parents[1]
-REFDATA = Path(os.environ.get("GNSSREL_REFDATA", ROOT.parent / "shared" / "refdata"))
 NYA1 = REFDATA / "2024-124/NYA100NOR_S_20241240000_01D_30S_MO.crx.gz"
 CEDA = REFDATA / "2018-210/CEDA00USA_R_20182100000_23H_15S_MO.rnx.gz"
 NYA1_HOUR = ("2024-05-03T00:00:00", "2024-05-03T01:00:00")

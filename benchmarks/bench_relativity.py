@@ -11,27 +11,16 @@ Target (issue 3): the table for ~120 satellites x 2880 epochs in a few seconds.
 
 from __future__ import annotations
 
-import os
 import sys
-import time
 from pathlib import Path
 
 import numpy as np
+from _common import REFDATA, best_of
 
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT / "tests"))
-REFDATA = Path(os.environ.get("GNSSREL_REFDATA", ROOT.parent / "shared" / "refdata"))
 NAV = REFDATA / "2020-177" / "MOJN00DNK_R_20201770000_01D_MN.rnx.gz"
 DAY_START = np.datetime64("2020-06-25T00:00:00", "ns")
-
-
-def best_of(fn, repeat=3):
-    best = np.inf
-    for _ in range(repeat):
-        t0 = time.perf_counter()
-        out = fn()
-        best = min(best, time.perf_counter() - t0)
-    return best, out
 
 
 def states_of_the_day():
