@@ -19,12 +19,12 @@ __version__ = "0.1.0"
 
 __all__ = [
     "__version__",
-    "read_navigation",
-    "read_observations",
-    "read_sp3",
-    "read_rinex_clock",
     "broadcast_states",
     "precise_states",
+    "read_navigation",
+    "read_observations",
+    "read_rinex_clock",
+    "read_sp3",
 ]
 
 

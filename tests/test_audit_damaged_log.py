@@ -1,7 +1,8 @@
 """A damaged epoch in the middle of a log is skipped and counted in the audit summary, not lost silently."""
 
-import gnssrel
 from conftest import SAMPLE_LOGS
+
+import gnssrel
 from gnssrel.audit.summary import audit_log, audit_summary
 
 OBS = SAMPLE_LOGS / "KVRP00ZZZ_R_20251621000_03H_30S_MO.rnx"

@@ -24,13 +24,13 @@ def test_python_dash_m_entry_point():
 
 # The shared option builders and formatters of gnssrel/jobs/common.py: every command reads the same.
 
-import argparse  # noqa: E402
+import argparse
 
-import numpy as np  # noqa: E402
-import pytest  # noqa: E402
+import numpy as np
+import pytest
 
-from gnssrel.cli import build_parser  # noqa: E402
-from gnssrel.jobs import common  # noqa: E402
+from gnssrel.cli import build_parser
+from gnssrel.jobs import common
 
 
 def _options(parser):

@@ -10,8 +10,8 @@ from __future__ import annotations
 import json
 
 import pytest
-
 from conftest import SAMPLE_LOGS
+
 from gnssrel.cli import main
 
 

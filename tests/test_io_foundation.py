@@ -43,10 +43,9 @@ def test_missing_file(tmp_path):
 
 def test_atomic_write_leaves_nothing_on_failure(tmp_path):
     target = tmp_path / "out.csv"
-    with pytest.raises(RuntimeError):
-        with writers.atomic_path(target) as tmp:
-            tmp.write_text("half")
-            raise RuntimeError("boom")
+    with pytest.raises(RuntimeError), writers.atomic_path(target) as tmp:
+        tmp.write_text("half")
+        raise RuntimeError("boom")
     assert list(tmp_path.iterdir()) == []
 
 

@@ -7,8 +7,8 @@ import pandas as pd
 import pytest
 
 from gnssrel.audit import firmware
-from gnssrel.geodesy import geodetic_to_ecef
 from gnssrel.errors import FileFormatError
+from gnssrel.geodesy import geodetic_to_ecef
 from gnssrel.io.receiver_fixes import read_fixes_csv, read_nmea_gga, read_receiver_fixes
 
 # The GGA example quoted in most NMEA 0183 descriptions (from memory), checksum 47.

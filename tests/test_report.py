@@ -11,9 +11,9 @@ import struct
 
 import numpy as np
 import pytest
+from conftest import SAMPLE_LOGS
 from matplotlib.ticker import FixedFormatter, FuncFormatter
 
-from conftest import SAMPLE_LOGS
 from gnssrel.report.layout import GpstFormatter
 
 EXPECTED_FIGURES = {"periodic_term", "rate_decomposition", "proper_time", "clock_convention",

@@ -8,13 +8,13 @@ import json
 
 import numpy as np
 import pytest
-
 from conftest import ONE_MILLIMETRE, ONE_NANOSECOND, ONE_PICOSECOND, SAMPLE_LOGS
+
 from gnssrel.constants import C_M_S, OMEGA_EARTH_IERS_RAD_S
 from gnssrel.simulate import truth
 from gnssrel.simulate.generate import file_names, write_scenario
 from gnssrel.simulate.propagation import rotate_z, shapiro_m, troposphere_m
-from gnssrel.simulate.scenario import FREQUENCY_HZ, build_scenario  # noqa: F401
+from gnssrel.simulate.scenario import FREQUENCY_HZ, build_scenario
 from gnssrel.simulate.write_nmea import checksum
 
 HOURS, SEED = 1.0, 424242

@@ -34,8 +34,8 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from gnssrel.geodesy import ecef_to_geodetic, geodetic_to_ecef
 from gnssrel.errors import FileFormatError, TimeScaleError
+from gnssrel.geodesy import ecef_to_geodetic, geodetic_to_ecef
 from gnssrel.io.opening import read_text
 from gnssrel.timescales import to_gpst
 

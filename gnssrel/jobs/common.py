@@ -13,7 +13,6 @@ import numpy as np
 from gnssrel.constants import SYSTEM_ORDER
 from gnssrel.errors import GnssrelInputError, NoDataError
 
-
 SYSTEMS_HELP = f"systems to use, letters of {SYSTEM_ORDER}, e.g. GE (default: every system in the files)"
 START_HELP = ("first epoch, GPST unless a scale follows (e.g. '2020-06-25T06:00 UTC'); "
               "default: the start of the data")

@@ -11,8 +11,15 @@ import numpy as np
 from matplotlib.lines import Line2D
 
 from gnssrel.clocks.convention import CANDIDATES
-from gnssrel.report.layout import (ReportFigure, as_plot_times, gpst_axis, new_figure, panel_letter,
-                                   system_handles, systems_in)
+from gnssrel.report.layout import (
+    ReportFigure,
+    as_plot_times,
+    gpst_axis,
+    new_figure,
+    panel_letter,
+    system_handles,
+    systems_in,
+)
 from gnssrel.report.palette import OWN, REFERENCE, system_colour, system_name
 
 

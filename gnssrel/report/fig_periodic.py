@@ -8,8 +8,16 @@ from __future__ import annotations
 
 import numpy as np
 
-from gnssrel.report.layout import (ReportFigure, as_plot_times, gpst_axis, label_line_ends, new_figure,
-                                   panel_letter, system_handles, systems_in)
+from gnssrel.report.layout import (
+    ReportFigure,
+    as_plot_times,
+    gpst_axis,
+    label_line_ends,
+    new_figure,
+    panel_letter,
+    system_handles,
+    systems_in,
+)
 from gnssrel.report.palette import system_colour
 
 N_LABELLED = 4

@@ -18,7 +18,13 @@ import numpy as np
 from gnssrel.constants import C_M_S
 from gnssrel.simulate import truth
 from gnssrel.simulate.propagation import (
-    L1_HZ, klobuchar_l1_s, light_time, receiver_view, shapiro_m, troposphere_m)
+    L1_HZ,
+    klobuchar_l1_s,
+    light_time,
+    receiver_view,
+    shapiro_m,
+    troposphere_m,
+)
 from gnssrel.simulate.scenario import FREQUENCY_HZ, KLOBUCHAR_ALPHA, KLOBUCHAR_BETA, SIGNALS
 from gnssrel.timescales import seconds_between, to_week_seconds
 

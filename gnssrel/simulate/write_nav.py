@@ -62,7 +62,7 @@ def navigation_text(ephemerides: dict, header: dict) -> list[str]:
            header_line(f"{header['program']:<20}{header['run_by']:<20}{header['date']:<20}",
                        "PGM / RUN BY / DATE")]
     out += [header_line(c, "COMMENT") for c in header.get("comments", ())]
-    ion = lambda name, vals: header_line(  # noqa: E731
+    ion = lambda name, vals: header_line(
         f"{name:<4} " + "".join(f"{v:12.4E}" for v in vals), "IONOSPHERIC CORR")
     out += [ion("GAL", tuple(header["nequick_ai"]) + (0.0,)),
             ion("GPSA", header["klobuchar_alpha"]), ion("GPSB", header["klobuchar_beta"])]
