@@ -33,6 +33,8 @@ def periodic_figure(content) -> ReportFigure:
     icd = ds["periodic_icd_s"].transpose("time", "sv").values * 1e9
     state = ds["periodic_state_s"].transpose("time", "sv").values * 1e9
     diff = ds["periodic_diff_s"].transpose("time", "sv").values * 1e9
+    if "elements_from_broadcast" in ds:   # with osculating elements the difference is zero by construction
+        diff = np.where(ds["elements_from_broadcast"].transpose("time", "sv").values, diff, np.nan)
     svs = [str(s) for s in ds["sv"].values]
     with np.errstate(invalid="ignore"):
         peak = np.nanmax(np.abs(np.where(np.isfinite(icd), icd, 0.0)), axis=0)

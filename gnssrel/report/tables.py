@@ -20,6 +20,11 @@ def _median(entries, key) -> float:
     return float(np.nanmedian(values)) if values else float("nan")
 
 
+def _max_known(values) -> float:
+    known = [v for v in values if v is not None and np.isfinite(v)]
+    return max(known) if known else float("nan")
+
+
 def relativity_by_system(content) -> pd.DataFrame:
     sats = content.relativity_summary["satellites"]
     out = []
@@ -27,7 +32,8 @@ def relativity_by_system(content) -> pd.DataFrame:
         group = [e for sv, e in sats.items() if sv[0] == s]
         out.append({"system": system_name(s), "satellites": len(group),
                     "max periodic term (ns)": max(e["periodic_max_abs_ns"] for e in group),
-                    "max |spec − state| (ns)": max(e["icd_vs_state_max_diff_ns"] for e in group),
+                    # None where the specification form had no broadcast elements (GLONASS)
+                    "max |spec − state| (ns)": _max_known(e["icd_vs_state_max_diff_ns"] for e in group),
                     "median velocity (µs/day)": _median(group, "us_per_day_velocity"),
                     "median gravity (µs/day)": _median(group, "us_per_day_gravity"),
                     "median total (µs/day)": _median(group, "us_per_day_total"),
