@@ -8,6 +8,7 @@ it to :func:`gnssrel.report.builder.write_report`.  ``gnssrel demo`` calls
 
 from __future__ import annotations
 
+import argparse
 import logging
 from pathlib import Path
 
@@ -22,10 +23,16 @@ DESCRIPTION = (
     "observation logs, the receivers' own fixes and satellite-clock tables) and write a "
     "self-contained report.html with every figure embedded, each figure also as PNG and SVG, "
     "the tables as CSV and summary.json. --receiver-fixes and --receiver-clocks pair with --obs "
-    "in the order given. The folder is written complete or not at all.")
+    "in the order given. Every stage uses the same --systems and --start/--end window. Default "
+    "window: the span of the --obs logs when given; else the overlap of the navigation records' "
+    "span with the span of each --precise file (so a day of SP3/clock products selects that "
+    "day); else the navigation records' span. The folder is written complete or not at all.")
 
 log = logging.getLogger(__name__)
 DEFAULT_STEP_S = 30.0
+STEP_HELP = (f"epoch interval of the relativity terms, s (default: the --obs logs' interval, else "
+             f"{DEFAULT_STEP_S:g} s); when given, also keeps only observation and precise-clock epochs "
+             "on multiples of it")
 
 
 def add_arguments(parser) -> None:
@@ -38,6 +45,8 @@ def add_arguments(parser) -> None:
                         help="each receiver's own fixes (NMEA GGA or CSV), one per --obs, same order")
     parser.add_argument("--receiver-clocks", metavar="FILE.csv", nargs="+", default=[],
                         help="each receiver's own satellite-clock table, one per --obs, same order")
+    common.add_systems(parser)
+    common.add_time_window(parser, None, STEP_HELP)
     parser.add_argument("--title", default=None, help="report title (default: from the files)")
     parser.add_argument("--output", required=True, metavar="DIR", help="report folder to write")
     parser.add_argument("--plots", metavar="DIR", help="also copy the PNG figures into this folder")
@@ -64,24 +73,55 @@ def _split_precise(paths):
     return sp3, clk
 
 
-def _time_grid(nav, obs_list, sp3):
-    """GPST epochs for the relativity terms: the logs' span, else the precise span, else the nav span."""
+def _precise_span(sp3, precise_clocks):
+    """(start, end) common to every precise product given, or None when none is."""
+    spans = [(ds["time"].values[0], ds["time"].values[-1])
+             for ds in (sp3, precise_clocks) if ds is not None and ds.sizes.get("time")]
+    if not spans:
+        return None
+    return max(a for a, _ in spans), min(b for _, b in spans)
+
+
+def default_window(nav, systems, obs_list=(), sp3=None, precise_clocks=None):
+    """The GPST window used when --start/--end are not given (see DESCRIPTION).
+
+    The logs' span when there are logs; else the overlap of the navigation records'
+    reference times (toe; t_b for GLONASS) with every precise product's span; else
+    the navigation span alone (also when that overlap is empty).
+    """
+    if obs_list:
+        return (min(o["time"].values[0] for o in obs_list), max(o["time"].values[-1] for o in obs_list))
+    start, end = common.navigation_span(nav, systems)
+    precise = _precise_span(sp3, precise_clocks)
+    if precise is not None and max(start, precise[0]) < min(end, precise[1]):
+        start, end = max(start, precise[0]), min(end, precise[1])
+    return start, end
+
+
+def _time_grid(start, end, obs_list, step_s):
+    """GPST epochs for the relativity terms: ``step_s``, else the logs' interval, else 30 s."""
     from gnssrel.orbits.broadcast import time_grid
 
-    if obs_list:
-        starts = [o["time"].values[0] for o in obs_list]
-        ends = [o["time"].values[-1] for o in obs_list]
-        step = min(float(o.attrs.get("interval") or DEFAULT_STEP_S) for o in obs_list)
-        return time_grid(min(starts), max(ends), step)
-    refs = np.concatenate([np.asarray(t["toe" if s != "R" else "toc"]).astype("datetime64[ns]")
-                           for s, t in nav.ephemerides.items() if len(t)])
-    start, end = refs.min(), refs.max()
-    if sp3 is not None:
-        t = sp3["time"].values
-        start, end = max(start, t[0]), min(end, t[-1])
+    if step_s is None:
+        step_s = min((float(o.attrs.get("interval") or DEFAULT_STEP_S) for o in obs_list),
+                     default=DEFAULT_STEP_S)
     if end <= start:
         end = start + np.timedelta64(2, "h")
-    return time_grid(start, end, DEFAULT_STEP_S)
+    times = time_grid(start, end, step_s)
+    if times.size < 3:
+        raise GnssrelInputError("fewer than 3 epochs in the window: the proper-time integral needs at least 3")
+    return times
+
+
+def _decimate(ds, step_s):
+    """Keep only the epochs on multiples of ``step_s`` (None keeps all)."""
+    if not step_s:
+        return ds
+    t = ds["time"].values.astype("datetime64[ns]").astype("int64")
+    keep = np.flatnonzero(np.mod(t, round(step_s * 1e9)) == 0)
+    if keep.size == 0:
+        raise GnssrelInputError(f"--step {step_s:g}: no observation epoch falls on a multiple of it")
+    return ds.isel(time=keep)
 
 
 def _receiver_name(obs_ds, path) -> str:
@@ -90,9 +130,16 @@ def _receiver_name(obs_ds, path) -> str:
 
 
 def analyse(nav_paths, precise_paths=(), obs_paths=(), fixes_paths=(), clocks_paths=(), title=None,
-            description=None, progress=print, clock_fallback: bool = False):
-    """Run every stage the inputs allow; returns a ReportContent (see gnssrel.report.content)."""
-    from gnssrel import read_navigation, read_observations
+            description=None, progress=print, clock_fallback: bool = False, systems: str | None = None,
+            start=None, end=None, step_s: float | None = None):
+    """Run every stage the inputs allow; returns a ReportContent (see gnssrel.report.content).
+
+    ``systems`` (letters, None = all), ``start``/``end`` (GPST datetime64, None = the default
+    window of :func:`default_window`) and ``step_s`` (None = the logs' interval, else 30 s;
+    when given, observation and precise-clock epochs are also decimated to it) apply to
+    every stage: orbits, relativity, clocks and the audit.
+    """
+    from gnssrel import read_observations
     from gnssrel.orbits.broadcast import broadcast_states
     from gnssrel.relativity.engine import relativity_summary, relativity_terms
     from gnssrel.report.content import ReceiverFindings, ReportContent
@@ -103,26 +150,32 @@ def analyse(nav_paths, precise_paths=(), obs_paths=(), fixes_paths=(), clocks_pa
         if given and len(given) != len(obs_paths):
             raise GnssrelInputError(f"{flag}: give one file per --obs log ({len(obs_paths)}), "
                                     f"in the same order; got {len(given)}")
+    if start is not None and end is not None and end < start:
+        raise GnssrelInputError(f"--end ({end}) is before --start ({start})")
     _check_files(nav_paths + precise_paths + obs_paths + fixes_paths + clocks_paths)
     notes: list[str] = []
     progress(f"reading {len(nav_paths)} navigation file(s)")
-    navs = [read_navigation(p) for p in nav_paths]
-    nav = navs[0] if len(navs) == 1 else type(navs[0]).merge(navs)
+    nav, present = common.read_navigation_files(nav_paths, systems)
+    letters = list(present)
     sp3_paths, clk_paths = _split_precise(precise_paths)
     sp3 = None
     if sp3_paths:
         from gnssrel.io.sp3 import read_sp3
 
         progress(f"reading {len(sp3_paths)} SP3 file(s)")
-        sp3 = read_sp3(sp3_paths)
+        sp3 = read_sp3(sp3_paths, systems=letters)
+    clk, clk_source = _read_clock_files(clk_paths, letters, sp3 is not None and clock_fallback, notes, progress)
     obs_list = []
     for p in obs_paths:
         progress(f"reading observations {Path(p).name}")
-        obs_list.append(read_observations(p))
-    times = _time_grid(nav, obs_list, sp3)
-    progress(f"broadcast orbits and relativity terms: {times.size} epochs "
+        obs_list.append(_decimate(read_observations(p, systems=letters, start=start, end=end), step_s))
+    default_start, default_end = default_window(nav, letters, obs_list, sp3, clk)
+    start = default_start if start is None else start
+    end = default_end if end is None else end
+    times = _time_grid(start, end, obs_list, step_s)
+    progress(f"broadcast orbits and relativity terms ({present}): {times.size} epochs "
              f"{str(times[0])[:16]} to {str(times[-1])[:16]} GPST")
-    states = broadcast_states(nav, times)
+    states = broadcast_states(nav, times, systems=letters)
     rel = relativity_terms(states)
     rel_summary = relativity_summary(rel)
     content = ReportContent(title=title or "gnssrel report", relativity=rel, relativity_summary=rel_summary,
@@ -131,23 +184,30 @@ def analyse(nav_paths, precise_paths=(), obs_paths=(), fixes_paths=(), clocks_pa
                                     "observations": obs_paths, "fixes": fixes_paths,
                                     "satellite_clocks": clocks_paths})
     if sp3 is not None:
-        _orbits(content, nav, sp3, times, progress)
-    _clocks(content, nav, sp3, sp3_paths, clk_paths, times, progress, clock_fallback)
+        _orbits(content, nav, sp3, times, letters, progress)
+    if clk is None and sp3 is not None:
+        clk, clk_source = sp3, f"SP3 clocks {', '.join(Path(p).name for p in sp3_paths)}"
+    if clk is not None:
+        progress(f"broadcast vs precise clocks ({clk_source})")
+        content.clock_table, content.clock_summary = compare_clocks_in_window(
+            nav, clk, letters, times[0], times[-1], step_s, clk_source)
+        content.clock_source = clk_source
     for i, (path, obs_ds) in enumerate(zip(obs_paths, obs_list)):
         r = ReceiverFindings(name=_receiver_name(obs_ds, path), observations_path=str(path),
                              fixes_path=fixes_paths[i] if fixes_paths else None,
                              clocks_path=clocks_paths[i] if clocks_paths else None)
-        _audit(r, obs_ds, nav, progress)
+        _audit(r, obs_ds, nav, letters, (times[0], times[-1]), progress)
         content.receivers.append(r)
     from gnssrel.report.verdicts import receiver_verdict
 
     for r in content.receivers:
         r.verdict = receiver_verdict(r.name, r.audit_summary, r.clock_check)
     content.summary = combined_summary(content)
+    content.summary["systems"] = present
     return content
 
 
-def _orbits(content, nav, sp3, times, progress):
+def _orbits(content, nav, sp3, times, systems, progress):
     from gnssrel.orbits.broadcast import broadcast_states
     from gnssrel.orbits.compare import compare_with_precise
     from gnssrel.orbits.precise import precise_states
@@ -158,35 +218,37 @@ def _orbits(content, nav, sp3, times, progress):
         content.notes.append("the SP3 epochs do not overlap the analysed span: no orbit comparison")
         return
     progress(f"broadcast vs precise orbits at {inside.size} SP3 epochs")
-    content.orbit_table, content.orbit_summary = compare_with_precise(broadcast_states(nav, inside),
-                                                                      precise_states(sp3, inside))
+    content.orbit_table, content.orbit_summary = compare_with_precise(
+        broadcast_states(nav, inside, systems=systems), precise_states(sp3, inside))
 
 
-def _clocks(content, nav, sp3, sp3_paths, clk_paths, times, progress, fallback):
-    from gnssrel.clocks.compare import compare_clocks
+def _read_clock_files(clk_paths, systems, fallback, notes, progress):
+    """(clock Dataset, source text) from the RINEX clock files, or (None, None)."""
     from gnssrel.jobs.clocks import read_precise_clocks
 
-    precise, source = None, None
-    if clk_paths:
-        try:
-            precise, kind = read_precise_clocks(clk_paths)
-            source = f"{kind} {', '.join(Path(p).name for p in clk_paths)}"
-        except FileFormatError as exc:
-            if not (fallback and sp3 is not None):
-                raise
-            content.notes.append(f"the RINEX clock file could not be read ({exc}); the SP3 clocks "
-                                 "were compared instead")
-            log.warning("RINEX clock file unreadable, using the SP3 clocks: %s", exc)
-    if precise is None and sp3 is not None:
-        precise, source = sp3, f"SP3 clocks {', '.join(Path(p).name for p in sp3_paths)}"
-    if precise is not None:
-        progress(f"broadcast vs precise clocks ({source})")
-        content.clock_table, content.clock_summary = compare_clocks(
-            nav, precise[["clock_s"]], start=times[0], end=times[-1], precise_source=source)
-        content.clock_source = source
+    if not clk_paths:
+        return None, None
+    progress(f"reading {len(clk_paths)} clock file(s)")
+    try:
+        precise, kind = read_precise_clocks(clk_paths, systems)
+    except FileFormatError as exc:
+        if not fallback:
+            raise
+        notes.append(f"the RINEX clock file could not be read ({exc}); the SP3 clocks were compared instead")
+        log.warning("RINEX clock file unreadable, using the SP3 clocks: %s", exc)
+        return None, None
+    return precise[["clock_s"]], f"{kind} {', '.join(Path(p).name for p in clk_paths)}"
 
 
-def _audit(r, obs_ds, nav, progress):
+def compare_clocks_in_window(nav, precise, systems, start, end, step_s, source):
+    """Broadcast vs precise clocks for ``systems`` on the precise epochs in [start, end]."""
+    from gnssrel.clocks.compare import compare_clocks
+
+    return compare_clocks(nav, precise[["clock_s"]], systems=systems, start=start, end=end,
+                          step_s=step_s, precise_source=source)
+
+
+def _audit(r, obs_ds, nav, systems, window, progress):
     from gnssrel.audit.positioning import position_errors_3d_m
     from gnssrel.audit.summary import audit_log, audit_summary, per_epoch_errors
     from gnssrel.clocks.firmware import check_receiver_clocks
@@ -196,11 +258,14 @@ def _audit(r, obs_ds, nav, progress):
     if r.fixes_path:
         r.fixes = read_receiver_fixes(r.fixes_path)
     progress(f"{r.name}: audit of the observation log" + (" and the receiver's fixes" if r.fixes_path else ""))
-    r.audit = audit_log(obs_ds, nav, fixes=r.fixes)
+    r.audit = audit_log(obs_ds, nav, systems=systems, fixes=r.fixes)
     clock_status = None
     if r.clocks_path:
         progress(f"{r.name}: the receiver's satellite-clock table")
-        r.clock_rows, r.clock_check = check_receiver_clocks(read_receiver_clocks(r.clocks_path), nav)
+        table = read_receiver_clocks(r.clocks_path)
+        when = table["time"].to_numpy().astype("datetime64[ns]")
+        table = table[(when >= window[0]) & (when <= window[1])]
+        r.clock_rows, r.clock_check = check_receiver_clocks(table, nav, systems=systems)
         states = {e["status"] for e in r.clock_check["by_system"].values()}
         clock_status = "clock table: " + ("; ".join(sorted(states)))
     r.audit_summary = audit_summary(r.audit, receiver_clock_verdict=clock_status)
@@ -237,10 +302,14 @@ def run(args) -> dict:
     from gnssrel.io.writers import to_json_text
     from gnssrel.report.builder import check_report_folder, write_report
 
+    # --output is a folder here, so only the shared --step check applies (not the table-suffix one)
+    common.check_outputs(argparse.Namespace(step=args.step))
     check_report_folder(args.output)
     progress = _progress(args)
+    start, end = common.time_window(args)
     content = analyse(args.nav, args.precise, args.obs, args.receiver_fixes, args.receiver_clocks,
-                      title=args.title, progress=progress)
+                      title=args.title, progress=progress, systems=common.parse_systems(args.systems),
+                      start=start, end=end, step_s=args.step)
     progress("drawing the figures and writing the report")
     folder = write_report(content, args.output, plots=args.plots)
     if args.json:

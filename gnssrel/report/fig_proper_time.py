@@ -33,6 +33,24 @@ def pick_satellites(summary: dict, limit: int = MAX_SATELLITES) -> list[str]:
     return chosen[:limit]
 
 
+def integration_runs(offset_s: np.ndarray) -> list[slice]:
+    """The gap-free runs of one satellite's integral: split at NaN and where it restarts at 0."""
+    ok = np.isfinite(offset_s)
+    starts = ok & (np.r_[True, ~ok[:-1]] | (offset_s == 0.0))
+    bounds = np.flatnonzero(starts)
+    ends = [np.flatnonzero(~ok[b:])[0] + b if (~ok[b:]).any() else ok.size for b in bounds]
+    ends = [min(e, nb) for e, nb in zip(ends, list(bounds[1:]) + [ok.size])]
+    return [slice(b, e) for b, e in zip(bounds, ends) if e - b >= 3]
+
+
+def periodic_per_run(t_s, values, runs) -> np.ndarray:
+    """``decompose(...)["periodic_s"]`` on each run separately (each run has its own line)."""
+    out = np.full(np.shape(values), np.nan)
+    for run in runs:
+        out[run] = decompose(t_s[run], values[run])["periodic_s"]
+    return out
+
+
 def proper_time_figure(content) -> ReportFigure | None:
     ds = content.relativity
     chosen = pick_satellites(content.relativity_summary)
@@ -52,13 +70,14 @@ def proper_time_figure(content) -> ReportFigure | None:
         icd = np.where(ok, col["periodic_icd_s"].values, np.nan)
         j2 = np.where(ok, col["j2_periodic_s"].values, np.nan)
         ax_total.plot(x, off * 1e6, color=colour, linestyle=dash, label=sv)
-        integral_periodic = decompose(t_s, off)["periodic_s"]
-        closed_periodic = decompose(t_s, icd)["periodic_s"]
+        runs = integration_runs(off)                 # the integral restarts at 0 on each run
+        integral_periodic = periodic_per_run(t_s, off, runs)
+        closed_periodic = periodic_per_run(t_s, icd, runs)
         ax_periodic.plot(x, integral_periodic * 1e9, color=colour, linestyle=dash, linewidth=1.6)
         ax_periodic.plot(x[::20], closed_periodic[::20] * 1e9, linestyle="none", marker="o", markersize=3.4,
                          markerfacecolor="white", markeredgecolor=colour, markeredgewidth=0.9)
-        r_plain = decompose(t_s, off - icd)["periodic_s"] * 1e9
-        r_j2 = decompose(t_s, off - icd - j2)["periodic_s"] * 1e9
+        r_plain = periodic_per_run(t_s, off - icd, runs) * 1e9
+        r_j2 = periodic_per_run(t_s, off - icd - j2, runs) * 1e9
         ax_resid.plot(x, r_plain, color=colour, linestyle=dash, linewidth=1.0, alpha=0.55)
         ax_resid.plot(x, r_j2, color=colour, linestyle=dash, linewidth=1.8)
         worst[sv] = (np.nanmax(np.abs(r_plain)), np.nanmax(np.abs(r_j2)))
@@ -85,9 +104,9 @@ def proper_time_figure(content) -> ReportFigure | None:
     caption = (
         "(a) Proper time τ of the satellite clock minus TT, integrated along the broadcast orbit with "
         "cumulative Simpson quadrature of dτ/dTT − 1 = L_G − (v²/2 + U)/c² (IERS Conventions 2010 ch. 10; U with "
-        "J2), from the first epoch of each satellite's longest gap-free span; the slope is the rate of "
+        "J2), from the first epoch of each gap-free run of a satellite (restarting at 0 on each); the slope is the rate of "
         "figure 2. Satellites: the most eccentric of each system. (b) The periodic part (the integral minus "
-        "its least-squares line, solid) against the closed form F e √A sin E of the interface specifications "
+        "its least-squares line, one line per run, solid) against the closed form F e √A sin E of the interface specifications "
         "(minus its own line, circles). (c) Their difference, with F e √A sin E alone (thin) and with the J2 "
         f"periodic term of Kouba 2004 added (thick); largest absolute residuals: {worst_text}. "
         "Over a span shorter than an orbit the line fit absorbs part of the periodic term; both sides "
