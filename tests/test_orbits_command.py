@@ -94,3 +94,15 @@ def test_bad_navigation_file_gives_one_line_and_status_2(tmp_path, capsys):
 def test_unknown_system_letter(tmp_path, capsys):
     assert main(["orbits", str(tmp_path / "x.rnx"), "--systems", "GX"]) == 2
     assert "unknown letters X" in capsys.readouterr().err
+
+
+@pytest.mark.refdata
+def test_default_comparison_window_is_the_navigation_files_day(capsys):
+    # MOJN's daily file (2020-06-25) also holds records from 20:10 the evening before; with the
+    # SP3 of both days given, the default comparison covers 2020-06-25 only: 96 epochs at 15 min.
+    code = main(["orbits", _nav(), "--systems", "G", "--json",
+                 "--precise", str(refdata_file(DAY + "GRG0MGXFIN_20201760000_01D_15M_ORB.SP3.gz")),
+                 str(refdata_file(DAY + "GRG0MGXFIN_20201770000_01D_15M_ORB.SP3.gz"))])
+    summary = json.loads(capsys.readouterr().out)
+    assert code == 0 and summary["n_epochs"] == 96
+    assert summary["start"].startswith("2020-06-25T00:00:00") and summary["end"].startswith("2020-06-25T23:45")

@@ -203,3 +203,17 @@ def text_table(headers, rows) -> str:
     lines = ["  ".join(c.rjust(w) if r else c.ljust(w) for c, w, r in zip(row, widths, right)).rstrip()
              for row in cells]
     return "\n".join(lines)
+
+
+def navigation_main_day(nav, systems: str) -> tuple[np.datetime64, np.datetime64]:
+    """The GPST day holding most of the records' reference times: [00:00, next 00:00).
+
+    A station's daily navigation file also carries a few records of the evening
+    before; with precise products of two days given for interpolation, this is
+    the day the user means.
+    """
+    refs = np.concatenate([np.asarray(nav.ephemerides[s]["toe" if s != "R" else "toc"])
+                           .astype("datetime64[ns]") for s in systems])
+    days, counts = np.unique(refs.astype("datetime64[D]"), return_counts=True)
+    day = days[np.argmax(counts)].astype("datetime64[ns]")
+    return day, day + np.timedelta64(1, "D")

@@ -25,7 +25,9 @@ DESCRIPTION = (
     "Compute the satellite state histories (ECEF position and velocity, status of each epoch) "
     "from RINEX navigation files on a regular GPST grid. With --precise, compare the broadcast "
     "positions with precise SP3 orbits at the SP3 epochs: per-satellite 3D, radial, along- and "
-    "cross-track RMS and the share of epochs covered. Times are GPST unless a scale is written "
+    "cross-track RMS and the share of epochs covered (without --start/--end: over the GPST day "
+    "holding most of the navigation records, so an SP3 file of the day before can be given for "
+    "interpolation). Times are GPST unless a scale is written "
     "after them (e.g. '2020-06-25T06:00 UTC').")
 
 log = logging.getLogger(__name__)
@@ -114,6 +116,9 @@ def run(args) -> dict:
 
         sp3 = read_sp3(list(args.precise), systems=systems)
         t = sp3["time"].values
+        if not args.start and not args.end:   # default: the navigation file's main day
+            day_start, day_end = common.navigation_main_day(nav, systems)
+            start, end = max(start, day_start), min(end, day_end - np.timedelta64(1, "ns"))
         times = t[(t >= start) & (t <= end)]
         if times.size == 0:
             raise NoDataError(f"the SP3 epochs ({t.min()} to {t.max()} GPST) do not overlap the "
