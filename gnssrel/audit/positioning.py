@@ -31,6 +31,7 @@ from gnssrel.audit.corrections import atmosphere_m, line_of_sight, modelled_pseu
 from gnssrel.constants import SYSTEM_ORDER
 
 SIGMA0_M = 1.0
+WEIGHTINGS = ("elevation", "equal")
 MAX_REJECTION_ROUNDS = 4
 
 
@@ -49,7 +50,10 @@ def _normal_equations(design, resid, weight, epoch, n_epoch):
 class _Problem:
     """The fixed parts of one positioning run (observations, design layout, options)."""
 
-    def __init__(self, obs, n_epoch, terms, elevation_mask_deg, ionosphere_header):
+    def __init__(self, obs, n_epoch, terms, elevation_mask_deg, ionosphere_header, weighting="elevation"):
+        if weighting not in WEIGHTINGS:
+            raise ValueError(f"weighting must be one of {', '.join(WEIGHTINGS)}, not {weighting!r}")
+        self.weighting = weighting
         self.obs, self.n_epoch, self.terms = obs, n_epoch, terms
         self.mask_rad = np.radians(elevation_mask_deg)
         self.iono_header = ionosphere_header
@@ -85,7 +89,10 @@ class _Problem:
         design[:, :3] = -los["unit_los"]
         el = los["elevation_rad"]
         sin_el = np.where(near_obs, np.maximum(np.sin(el), 0.05), 1.0)
-        weight = 1.0 / (SIGMA0_M**2 * (1.0 + 1.0 / sin_el**2))
+        if self.weighting == "elevation":   # sigma^2 = sigma0^2 (1 + 1/sin^2 el), common practice
+            weight = 1.0 / (SIGMA0_M**2 * (1.0 + 1.0 / sin_el**2))
+        else:                               # equal weights
+            weight = np.full(el.shape, 1.0 / SIGMA0_M**2)
         weight = np.where(near_obs & (el < self.mask_rad), 0.0, weight)
         return resid, design, weight
 
@@ -124,12 +131,16 @@ class _Problem:
 
 def single_point_positions(obs: dict, n_epoch: int, times, terms=None, elevation_mask_deg: float = 10.0,
                            initial_ecef_m=None, ionosphere_header=None, reject_m: float = 30.0,
-                           max_iterations: int = 15) -> pd.DataFrame:
+                           max_iterations: int = 15, weighting: str = "elevation") -> pd.DataFrame:
     """Positions of every epoch from the prepared observations (:func:`prepare_observations`).
 
     ``n_epoch`` and ``times`` describe the epoch grid that ``obs["epoch"]`` indexes.
+    ``weighting``: "elevation" (variance 1 + 1/sin^2 el) or "equal".  The choice matters
+    for what a misapplied term does to a fix (NYA1 2024-05-03, GPS, periodic term omitted:
+    median 3D error 8.85 m elevation-weighted, 7.50 m with equal weights; 2.36 / 2.39 m
+    with it applied).
     """
-    problem = _Problem(obs, n_epoch, resolve_terms(terms), elevation_mask_deg, ionosphere_header)
+    problem = _Problem(obs, n_epoch, resolve_terms(terms), elevation_mask_deg, ionosphere_header, weighting)
     epoch = problem.epoch
     active = np.isfinite(obs["pseudorange_m"]) & np.all(np.isfinite(obs["satellite_ecef_m"]), axis=1) \
         & np.isfinite(obs["satellite_clock_s"])

@@ -46,7 +46,7 @@ class AuditResult:
 
 def audit_log(obs_ds, nav, receiver_position_ecef_m=None, systems=None, elevation_mask_deg: float = 10.0,
               fixes: pd.DataFrame | None = None, precise=None,
-              receiver_clocks: pd.DataFrame | None = None) -> AuditResult:
+              receiver_clocks: pd.DataFrame | None = None, weighting: str = "elevation") -> AuditResult:
     """Run the receiver audit on one log (see the module text).
 
     ``precise``: None or ``{"orbits": SP3 Dataset, "clocks": Dataset with clock_s}``
@@ -66,7 +66,8 @@ def audit_log(obs_ds, nav, receiver_position_ecef_m=None, systems=None, elevatio
         {k: firmware.HYPOTHESES[k] for k in ("applied", "omitted")}
     positions = {name: single_point_positions(obs, times.size, times, terms=terms,
                                               elevation_mask_deg=elevation_mask_deg,
-                                              initial_ecef_m=ref, ionosphere_header=iono)
+                                              initial_ecef_m=ref, ionosphere_header=iono,
+                                              weighting=weighting)
                  for name, terms in hypotheses.items()}
     if ref is None:                       # no position known: the corrections use our own median fix
         ref = np.nanmedian(positions["applied"][["x_m", "y_m", "z_m"]].to_numpy(), axis=0)
@@ -80,7 +81,7 @@ def audit_log(obs_ds, nav, receiver_position_ecef_m=None, systems=None, elevatio
                        reference_ecef_m=ref, n_epochs=int(np.unique(obs["epoch"]).size),
                        n_sat=int(np.unique(obs["sv"]).size), systems=sorted(np.unique(obs["system"]).tolist()),
                        firmware=firm, clock_check=clock_check, clock_source=obs["clock_source"],
-                       extra={"log": _log_health(obs_ds)})
+                       extra={"log": _log_health(obs_ds), "weighting": weighting})
 
 
 def _log_health(obs_ds) -> dict:
@@ -120,7 +121,8 @@ def audit_summary(result: AuditResult, receiver_clock_verdict: str | None = None
     if receiver_clock_verdict is None and result.clock_check is not None:
         receiver_clock_verdict = clock_table_verdict(result.clock_check)
     position = {"reference": result.reference, "median_error_3d_m": None,
-                "median_error_3d_m_without_periodic": None}
+                "median_error_3d_m_without_periodic": None,
+                "weighting": result.extra.get("weighting", "elevation")}
     if result.reference != "none":
         for key, name in (("median_error_3d_m", "applied"), ("median_error_3d_m_without_periodic", "omitted")):
             err = position_errors_3d_m(result.positions[name], result.reference_ecef_m)

@@ -44,6 +44,8 @@ def add_arguments(parser) -> None:
                                          "(default: every epoch of OBS)")
     parser.add_argument("--elevation-mask", type=float, default=10.0, metavar="DEG",
                         help="elevation mask in degrees (default 10)")
+    parser.add_argument("--weighting", choices=("elevation", "equal"), default="elevation",
+                        help="least-squares weights of the fixes: 1/(1 + 1/sin^2 el) (default) or equal")
     common.add_outputs(parser, "per-observation corrections table (.csv, .parquet or .nc)")
     parser.add_argument("--positions", metavar="FILE",
                         help="per-epoch positions and 3-D errors table (.csv, .parquet or .nc)")
@@ -114,6 +116,7 @@ def run(args) -> dict:
         fixes = read_receiver_fixes(args.receiver_fixes, date_utc=args.fix_date)
     result = audit_log(obs_ds, nav, receiver_position_ecef_m=position, systems=systems,
                        elevation_mask_deg=args.elevation_mask, fixes=fixes, precise=precise,
+                       weighting=args.weighting,
                        receiver_clocks=receiver_clocks)
     summary = audit_summary(result)
     times = obs_ds["time"].values
