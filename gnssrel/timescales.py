@@ -216,3 +216,28 @@ def parse_time(text: str, default_scale: str | None = None) -> np.datetime64:
     except ValueError:
         raise TimeScaleError(f"cannot read time {text!r}; write e.g. '2020-06-25T06:00:00 GPST'") from None
     return to_gpst(t, scale)[()]
+
+
+def check_leap_seconds(value: int, near_gpst=None) -> str | None:
+    """Why a header's LEAP SECONDS value cannot be right, or None when it is plausible.
+
+    GPS - UTC was 0 at 1980-01-06 and has only grown, one second at a time (IERS
+    Bulletin C); it cannot be negative, and no value above the table's latest
+    plus a few seconds can be true before the table expires.  With ``near_gpst``
+    (an epoch of the file) the value is compared with the built-in table
+    (:data:`_LEAP_TABLE_UTC`): a disagreement is returned as a reason too, so the
+    caller can warn and keep the table's value.
+    """
+    value = int(value)
+    latest = int(_LEAP_VALUE_S[-1])
+    if value < 0:
+        return f"LEAP SECONDS {value} is negative (GPS - UTC has never been below 0)"
+    if value > latest + 5:
+        return f"LEAP SECONDS {value} is far above the latest known value {latest} s"
+    if near_gpst is not None:
+        expected = int(np.asarray(leap_seconds_gpst(np.asarray([near_gpst], "datetime64[ns]")))[0])
+        t = np.datetime64(near_gpst, "ns")
+        if value != expected and t <= LEAP_TABLE_VALID_UNTIL:
+            return (f"LEAP SECONDS {value} disagrees with the built-in table ({expected} s at "
+                    f"{str(t.astype('datetime64[s]'))} GPST)")
+    return None
