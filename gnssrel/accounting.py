@@ -76,6 +76,18 @@ class Ledger:
             raise ValueError(f"a drop needs a reason, not {reason!r}")
         self.add(item, system, reason, n)
 
+    def retire(self, item: str, system: str, reason: str, n: int = 1) -> None:
+        """Move ``n`` from "used" to a drop reason: a later stage did not use what a reader kept.
+
+        Readers count every record they keep as used; a stage that then leaves some
+        of them aside (outside the time window, unhealthy, never the nearest record)
+        retires them with its reason, so the balance still holds.
+        """
+        if reason in (READ, USED):
+            raise ValueError(f"a drop needs a reason, not {reason!r}")
+        self.add(item, system, USED, -int(n))
+        self.add(item, system, reason, n)
+
     def warn(self, message: str, path=None, line: int | None = None) -> None:
         """Keep a warning naming the file and line (``"file:line: message"``)."""
         where = ""
