@@ -180,8 +180,8 @@ class Ledger:
             for system in sorted(self.counts[item], key=_system_order):
                 cell = self.counts[item][system]
                 drops = {o: n for o, n in cell.items() if o not in (READ, USED)}
-                label = item.replace("_", " ")
-                text = f"{label} {system}: {cell.get(USED, 0)} used of {cell.get(READ, 0)} read"
+                label = item.replace("_", " ") + ("" if system == NO_SYSTEM else f" {system}")
+                text = f"{label}: {cell.get(USED, 0)} used of {cell.get(READ, 0)} read"
                 if drops:
                     text += "; dropped: " + ", ".join(f"{n} {o}" for o, n in
                                                       sorted(drops.items(), key=lambda kv: -kv[1]))

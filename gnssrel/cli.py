@@ -10,6 +10,7 @@ from __future__ import annotations
 import argparse
 import importlib
 import logging
+import os
 import sys
 
 from gnssrel.errors import GnssrelInputError
@@ -18,6 +19,7 @@ from gnssrel.errors import GnssrelInputError
 JOBS = ("orbits", "relativity", "clocks", "audit", "report", "demo", "simulate", "info")
 
 EXIT_OK, EXIT_INTERNAL, EXIT_BAD_INPUT = 0, 1, 2
+EXIT_BROKEN_PIPE = 141
 
 
 def _available_jobs():
@@ -72,13 +74,31 @@ def main(argv=None) -> int:
     except KeyboardInterrupt:
         print("gnssrel: interrupted", file=sys.stderr)
         return 130
+    except BrokenPipeError:
+        return _broken_pipe()
     except Exception as exc:  # an internal error: one line, traceback only on request
         if args.verbose:
             raise
         print(f"gnssrel {args.command}: internal error: {type(exc).__name__}: {exc} "
               f"(run again with -v for the traceback)", file=sys.stderr)
         return EXIT_INTERNAL
+    try:
+        sys.stdout.flush()
+    except BrokenPipeError:
+        return _broken_pipe()
     return EXIT_OK
+
+
+def _broken_pipe() -> int:
+    """The reader of our output went away (``gnssrel demo --json | head``): stop quietly, as
+    programs do, with the shell's code for a SIGPIPE death (128 + 13); no traceback, and no
+    second error when Python flushes stdout at exit."""
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+    except (OSError, ValueError):
+        pass
+    return EXIT_BROKEN_PIPE
 
 
 if __name__ == "__main__":

@@ -56,14 +56,11 @@ def test_per_epoch_position_error_and_the_periodic_term(audit):
 
 
 def test_corrections_table_has_physical_values(audit):
-    from gnssrel.orbits.selection import STATUS_NOT_TRANSMITTED
-
     all_rows = audit.corrections
     chosen = all_rows["ephemeris_row"] >= 0
-    # At 00:00:00 the day's file holds no record transmitted yet (selection rule 2): those rows
-    # are NaN with their reason; every other observation has a record.
-    assert (all_rows.loc[~chosen, "state_status"] == STATUS_NOT_TRANSMITTED).all()
-    assert (all_rows.loc[~chosen, "time"] == np.datetime64("2024-05-03T00:00:00")).all()
+    # Post rule (the default, issue 9): every observation has a record, 00:00:00 too (under the
+    # receiver rule the day's file holds no record transmitted yet at 00:00:00: "not yet transmitted").
+    assert chosen.all()
     df = all_rows[chosen]
     assert df["satellite_x_m"].notna().all() and (df["state_status"] == 0).all()
     assert np.abs(df["periodic_s"]).max() < 60e-9                # GPS e < 0.025: |F e sqrt(A)| < 57 ns

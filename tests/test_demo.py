@@ -25,6 +25,22 @@ def demo_run(tmp_path_factory):
     return out, plots, json.loads((out / "summary.json").read_text())
 
 
+def test_demo_summary_and_report_carry_a_balanced_accounting(demo_run):
+    from gnssrel.accounting import Ledger
+
+    out, _, summary = demo_run
+    ledger = Ledger.from_dict(summary["accounting"])
+    assert ledger.unbalanced() == []
+    assert set(ledger.counts) >= {"navigation_records", "sp3_records", "clock_records", "observations",
+                                  "epochs", "fixes", "receiver_clock_rows"}
+    # the demo logs: 360 epochs at 30 s each (sample_logs/README.md); every pseudorange used
+    assert ledger.count("epochs") == 2 * 360
+    assert ledger.count("observations", outcome="used") == ledger.count("observations") > 0
+    html = (out / "report.html").read_text(encoding="utf-8")
+    assert "<h2 id='accounting'>Accounting</h2>" in html and "superseded (never the nearest record)" in html
+    assert (out / "accounting.csv").is_file()
+
+
 def test_demo_finds_the_faulty_receiver_and_the_fault(demo_run):
     _, _, summary = demo_run
     manifest = json.loads((SAMPLE_LOGS / "scenario.json").read_text())

@@ -2,6 +2,7 @@
 
 import gzip
 import json
+import warnings
 import zipfile
 
 import numpy as np
@@ -34,6 +35,51 @@ def test_damaged_gzip_names_the_file(tmp_path):
     (tmp_path / "bad.rnx.gz").write_bytes(data[: len(data) // 2])
     with pytest.raises(FileFormatError, match=r"bad\.rnx\.gz: compressed file is damaged"):
         opening.read_text(tmp_path / "bad.rnx.gz")
+
+
+@pytest.mark.parametrize("damage", ["zlib", "eof", "header"])
+def test_every_damaged_gzip_stream_is_one_line_naming_the_file(tmp_path, damage):
+    raw = bytearray(gzip.compress(TEXT.encode() * 50))
+    if damage == "zlib":
+        raw[12] ^= 0xFF            # zlib.error (invalid block type / code lengths)
+    elif damage == "eof":
+        raw = raw[:-10]            # EOFError
+    else:
+        raw[3] = 0xFF              # BadGzipFile: reserved flag bits set
+    path = tmp_path / "a.rnx.gz"
+    path.write_bytes(bytes(raw))
+    with pytest.raises(FileFormatError) as err:
+        opening.read_bytes(path)
+    assert str(err.value).startswith(f"{path}: compressed file is damaged or truncated")
+    assert "\n" not in str(err.value)
+
+
+def test_damaged_unix_compress_and_zip_are_file_format_errors(tmp_path):
+    for name, raw in (("b.rnx.Z", b"\x1f\x9d\x90" + bytes(range(256)) * 2),
+                      ("c.zip", b"PK\x03\x04" + b"\x01" * 60)):
+        (tmp_path / name).write_bytes(raw)
+        with pytest.raises(FileFormatError, match=f"{name}: compressed file is damaged"):
+            opening.read_bytes(tmp_path / name)
+
+
+def test_hatanaka_decompressor_warnings_become_ours(tmp_path):
+    hatanaka = pytest.importorskip("hatanaka")
+    from obs_samples import rinex3
+
+    from gnssrel.accounting import Ledger
+
+    crx = hatanaka.compress("".join(rinex3()).encode(), compression="none").decode().splitlines(keepends=True)
+    k = next(i for i, ln in enumerate(crx) if "END OF HEADER" in ln) + 9
+    path = tmp_path / "a.crx"
+    path.write_text("".join(crx[:k] + [crx[k]] + crx[k:]))          # one line repeated
+    ledger = Ledger()
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        opened = opening.open_log(path, ledger)
+    assert opened.hatanaka_epochs == 6 and opened.hatanaka_gave_up
+    assert ledger.warnings[0].startswith(f"{path}:24: Hatanaka decompression: line 24")
+    with pytest.warns(UserWarning, match=f"{path}:24: Hatanaka decompression"):
+        opening.read_bytes(path)                                       # no ledger: a Python warning
 
 
 def test_missing_file(tmp_path):

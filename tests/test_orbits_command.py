@@ -27,12 +27,16 @@ def test_state_table_csv_on_a_window(tmp_path, capsys):
     assert list(table.columns[:8]) == ["time", "sv", "x_m", "y_m", "z_m", "vx_m_per_s", "vy_m_per_s",
                                        "vz_m_per_s"]
     assert table["time"].nunique() == 7 and set(table["sv"].str[0]) == {"G", "R"}
-    assert set(table["status"]) <= {"ok", "no ephemeris within fit interval",
-                                    "ephemeris not yet transmitted", "unhealthy"}
+    from gnssrel.orbits.selection import status_codes
+
+    # the post rule (default): every status is one of its texts, the limits of G and R named in code 1
+    assert set(table["status"]) <= {"ok", status_codes("post", "GR")[1], "unhealthy"}
+    assert "GPS within half the fit interval" in status_codes("post", "GR")[1]
     ok = table["status"] == "ok"
     assert table.loc[ok, "x_m"].notna().all() and table.loc[~ok, "x_m"].isna().all()
-    printed = capsys.readouterr().out
+    printed, _, block = capsys.readouterr().out.partition("accounting: ")
     title, header, *rows = printed.splitlines()
+    assert "records and observations read" in block   # the accounting block follows
     assert title == "broadcast satellite states: 7 epochs, 2020-06-25 10:00:00 to 11:00:00 GPST"
     assert "epochs with a state (%)" in header and [r.split()[0] for r in rows] == ["G", "R"]
 

@@ -15,6 +15,7 @@ import numpy as np
 import pytest
 from synthetic_clocks import kepler_orbit, make_constellation, merge_constellations
 
+from gnssrel.accounting import Ledger
 from gnssrel.clocks.firmware import EXPECTED_K, FAULT_SIGNATURES, check_receiver_clocks
 from gnssrel.constants import C_M_S, GPS
 from gnssrel.errors import FileFormatError
@@ -53,19 +54,49 @@ def test_reader_converts_each_scale_to_gpst(tmp_path):
     assert by_sv.loc["R07", "line"] == 4
 
 
-@pytest.mark.parametrize("row, message, line", [
-    ("2020-06-25T00:00:00,TAI2,G05,1e-4,", "unknown time scale", 3),
-    ("2020-06-25T00:00:00,GPST,X05,1e-4,", "RINEX name", 3),
-    ("2020-06-25T00:00:00,GPST,G05,abc,", "not a number", 3),
-    ("2020-06-35T00:00:00,GPST,G05,1e-4,", "ISO 8601", 3),
-    ("2020-06-25T00:00:00,GPST,G01,1e-4,", "twice", 3),
+@pytest.mark.parametrize("row, message, system", [
+    ("2020-06-25T00:00:00,TAI2,G05,1e-4,", "unknown time scale", "G"),
+    ("2020-06-25T00:00:00,GPST,X05,1e-4,", "RINEX name", "-"),
+    ("2020-06-25T00:00:00,GPST,G05,abc,", "not a plain number", "G"),
+    ("2020-06-25T00:00:00,GPST,G05,1_0e-4,", "not a plain number", "G"),     # float() would take it
+    ("2020-06-25T00:00:00,GPST,G05,NaN,", "not a plain number", "G"),
+    ("2020-06-25T00:00:00,GPST,G05,-INF,", "not a plain number", "G"),
+    ("2020-06-25T00:00:00,GPST,G05,0.5,", "beyond", "G"),
+    ("2020-06-35T00:00:00,GPST,G05,1e-4,", "ISO 8601", "G"),
+    ("2020-02-30T00:00:00,GPST,G05,1e-4,", "ISO 8601", "G"),
+    ("2020-06-25T00:00:00,GPST,G01,1e-4,", "twice", "G"),
+    ("2020-06-25T00:00:00,GPST,G05,1e-4,,extra", "columns", "G"),
 ])
-def test_reader_names_file_line_and_fault(tmp_path, row, message, line):
+def test_a_bad_row_is_refused_counted_and_named(tmp_path, row, message, system):
     path = tmp_path / "rx.csv"
-    path.write_text(f"time,time_scale,sv,clock_correction_s,flags\n2020-06-25T00:00:00,GPST,G01,1e-4,\n{row}\n")
-    with pytest.raises(FileFormatError, match=message) as info:
+    path.write_text("time,time_scale,sv,clock_correction_s,flags\n2020-06-25T00:00:00,GPST,G01,1e-4,\n"
+                    f"{row}\n2020-06-25T00:00:30,GPST,G01,2e-4,\n")
+    df = read_receiver_clocks(path)
+    assert df["line"].tolist() == [2, 4] and df["clock_correction_s"].tolist() == [1e-4, 2e-4]
+    ledger = Ledger.from_dict(df.attrs["accounting"])
+    assert ledger.unbalanced() == []
+    assert ledger.count("receiver_clock_rows") == 3 and ledger.count("receiver_clock_rows", None, "used") == 2
+    (reason, n), = ledger.dropped("receiver_clock_rows", system).items()
+    assert message in reason and n == 1
+    assert len(ledger.warnings) == 1 and ledger.warnings[0].startswith(f"{path}:3: ")
+
+
+def test_appended_bytes_and_non_utf8_rows_cost_those_rows(tmp_path):
+    path = tmp_path / "rx.csv"
+    good = "time,time_scale,sv,clock_correction_s,flags\n2020-06-25T00:00:00,GPST,G01,1e-4,\n"
+    path.write_bytes(good.encode() + b"2020-06-25T00:00:30,GPST,G0\xff,1e-4,\n\x00\x8b\x1f,,garbage\xfe\n")
+    df = read_receiver_clocks(path)
+    ledger = Ledger.from_dict(df.attrs["accounting"])
+    assert len(df) == 1 and ledger.unbalanced() == []
+    assert ledger.count("receiver_clock_rows", "-") == 2 and ledger.count("receiver_clock_rows", "-", "used") == 0
+
+
+def test_a_table_of_only_bad_rows_is_one_error_naming_the_file(tmp_path):
+    path = tmp_path / "rx.csv"
+    path.write_text("time,time_scale,sv,clock_correction_s\n2020-06-25T00:00:00,GPST,G01,nan\n")
+    with pytest.raises(FileFormatError, match="no usable row") as info:
         read_receiver_clocks(path)
-    assert f"rx.csv:{line}:" in str(info.value)
+    assert "rx.csv:2:" in str(info.value)
 
 
 def test_reader_refuses_a_table_without_the_required_columns(tmp_path):

@@ -7,6 +7,7 @@ import pandas as pd
 import pytest
 
 from gnssrel.audit import firmware
+from gnssrel.accounting import Ledger
 from gnssrel.errors import FileFormatError
 from gnssrel.geodesy import geodetic_to_ecef
 from gnssrel.io.receiver_fixes import read_fixes_csv, read_nmea_gga, read_receiver_fixes
@@ -45,7 +46,7 @@ def test_bad_checksum_names_file_and_line(tmp_path):
 def test_missing_checksum_and_missing_date_are_errors(tmp_path):
     path = tmp_path / "nocs.nmea"
     path.write_text(CLASSIC_GGA[:-3] + "\n")
-    with pytest.raises(FileFormatError, match="without checksum"):
+    with pytest.raises(FileFormatError, match="no checksum"):
         read_nmea_gga(path)
     path.write_text(CLASSIC_GGA + "\n")
     with pytest.raises(FileFormatError, match="date"):
@@ -111,3 +112,78 @@ def test_firmware_verdict_picks_the_closest_hypothesis():
     assert out["verdict"].startswith("closest to 'omitted'")
     same = firmware.compare_with_hypotheses(fixes, {"a": hyp["omitted"], "b": positions(np.array([0, 0, 5.1]))})
     assert same["verdict"].startswith("undetermined")
+
+
+# ---- damaged sentences and rows cost that fix only (issue 9) -----------------------------------------
+
+ZDA = "GPZDA,123500.00,03,05,2024,00,00"
+GOOD_GGA = "GPGGA,123519,4807.038,N,01131.000,E,1,08,0.9,545.4,M,46.9,M,,"
+
+
+def _ledger(df):
+    ledger = Ledger.from_dict(df.attrs["accounting"])
+    assert ledger.unbalanced() == []
+    return ledger
+
+
+@pytest.mark.parametrize("gga, reason", [
+    ("GPGGA,123520,4807.038,N,01131.000,E,A,08,0.9,545.4,M,46.9,M,,", "garbled field"),     # quality A
+    ("GPGGA,123520,4807.038,N,01131.000,E,1.5,08,0.9,545.4,M,46.9,M,,", "garbled field"),
+    ("GPGGA,123520,4807.038,N,01131.000,E,NaN,08,0.9,545.4,M,46.9,M,,", "garbled field"),
+    # float("48_07.038") would take this one
+    ("GPGGA,123520,48_07.038,N,01131.000,E,1,08,0.9,545.4,M,46.9,M,,", "garbled field"),
+    ("GPGGA,123520,4807.038,N,01131.000,E,1,08,0.9,5_45.4,M,46.9,M,,", "garbled field"),
+    ("GPGGA,123520,4807.038,N,01131.000,E,1,08,0.9,NaN,M,46.9,M,,", "garbled field"),
+    ("GPGGA,123520,4807.038,N,01131.000,E,1,08,0.9,inf,M,46.9,M,,", "garbled field"),
+    ("GPGGA,1235_0,4807.038,N,01131.000,E,1,08,0.9,545.4,M,46.9,M,,", "garbled field"),
+    ("GPGGA,123520,4867.038,N,01131.000,E,1,08,0.9,545.4,M,46.9,M,,", "value out of range"),  # 67 minutes
+    ("GPGGA,123520,4807.038,X,01131.000,E,1,08,0.9,545.4,M,46.9,M,,", "garbled field"),
+    ("GPGGA,123520,4807.038,N,01131.000,E,0,00,,,M,,M,,", "quality 0 (no fix)"),
+    ("GPGGA,123520,4807.038", "garbled field"),
+])
+def test_a_bad_gga_is_refused_and_counted(tmp_path, gga, reason):
+    path = tmp_path / "log.nmea"
+    path.write_text("\n".join([_sentence(ZDA), _sentence(GOOD_GGA), _sentence(gga)]) + "\n")
+    df = read_nmea_gga(path)
+    assert len(df) == 1 and df["line"][0] == 2
+    ledger = _ledger(df)
+    assert ledger.count("fixes", "-") == 2 and ledger.dropped("fixes") == {reason: 1}
+    if reason != "quality 0 (no fix)":
+        assert ledger.warnings[0].startswith(f"{path}:3: fix refused")
+
+
+def test_bad_checksum_costs_that_sentence(tmp_path):
+    path = tmp_path / "log.nmea"
+    path.write_text("\n".join([_sentence(ZDA), _sentence(GOOD_GGA), CLASSIC_GGA[:-2] + "48",
+                               CLASSIC_GGA[:-2] + "zz"]) + "\n")
+    ledger = _ledger(read_nmea_gga(path))
+    assert ledger.count("fixes", "-", "used") == 1 and ledger.dropped("fixes") == {"bad checksum": 2}
+
+
+@pytest.mark.parametrize("zda", ["GPZDA,123500.00,xx,05,2024,00,00", "GPZDA,123500.00,30,02,2024,00,00",
+                                 "GPZDA,123500.00,03,0_5,2024,00,00"])
+def test_garbled_zda_date_is_ignored_not_guessed(tmp_path, zda):
+    path = tmp_path / "log.nmea"
+    path.write_text("\n".join([_sentence(ZDA), _sentence(zda), _sentence(GOOD_GGA)]) + "\n")
+    df = read_nmea_gga(path)
+    assert df["time"][0] == np.datetime64("2024-05-03T12:35:37", "ns")       # the first ZDA's date
+    assert any(":2: ZDA date is not a calendar date" in w for w in _ledger(df).warnings)
+
+
+@pytest.mark.parametrize("row, reason", [
+    ("2024-05-03T00:00:30,GPST,1_202435.1,252632.2,6237772.4", "garbled field"),
+    ("2024-05-03T00:00:30,GPST,NaN,252632.2,6237772.4", "garbled field"),
+    ("2024-05-03T00:00:30,GPST,INF,252632.2,6237772.4", "garbled field"),
+    ("2024-02-30T00:00:30,GPST,1202435.1,252632.2,6237772.4", "garbled field"),
+    ("2024-05-03T00:00:30,GPST,1202435.1,252632.2,6237772.4,7", "wrong number of columns"),
+    ("2024-05-03T00:00:30,GPST,1e12,252632.2,6237772.4", "value out of range"),
+    ("\x00\x8b\x1f\xff appended bytes", "wrong number of columns"),
+])
+def test_csv_bad_row_is_refused_and_counted(tmp_path, row, reason):
+    path = tmp_path / "fixes.csv"
+    path.write_bytes(b"time,time_scale,x_m,y_m,z_m\n2024-05-03T00:00:00,GPST,1202434.1,252632.2,6237772.4\n"
+                     + row.encode("latin-1") + b"\n")
+    df = read_fixes_csv(path)
+    assert len(df) == 1
+    ledger = _ledger(df)
+    assert ledger.dropped("fixes") == {reason: 1} and ledger.warnings[0].startswith(f"{path}:3: fix refused")

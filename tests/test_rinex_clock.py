@@ -9,6 +9,7 @@ import numpy as np
 import pytest
 from conftest import refdata_file
 
+from gnssrel.accounting import Ledger
 from gnssrel.errors import FileFormatError
 from gnssrel.io.rinex_clock import read_rinex_clock
 
@@ -164,16 +165,25 @@ def _bad(tmp_path, text):
     return path
 
 
+def _ledger(ds):
+    ledger = Ledger.from_dict(ds.attrs["accounting"])
+    assert ledger.unbalanced() == []
+    return ledger
+
+
 def test_truncated_last_line(tmp_path):
+    # A record cut short costs that record only: a cut value is refused, never read shortened.
     text = _clock_file("3.00").rstrip("\n")
     lines = text.splitlines()
-    path = _bad(tmp_path, text[:-10] + "\n")  # cut inside the sigma
-    with pytest.raises(FileFormatError, match=r"record truncated: 2 values announced") as err:
-        read_rinex_clock(path)
-    assert str(err.value).startswith(f"{path}:{len(lines)}: ")
-    path = _bad(tmp_path, text[:-30] + "\n")  # cut inside the bias
-    with pytest.raises(FileFormatError, match=r"line ends at column 49, the clock bias ends at column 59"):
-        read_rinex_clock(path)
+    t1 = np.datetime64("2020-06-25T00:00:30", "ns")
+    for cut in (10, 30):  # inside the sigma, inside the bias
+        path = _bad(tmp_path, text[:-cut] + "\n")
+        ds = read_rinex_clock(path)
+        assert np.isnan(ds["clock_s"].sel(sv="G01", time=t1).item())
+        assert ds["clock_s"].sel(sv="G01").values[0] == -1.25e-4
+        ledger = _ledger(ds)
+        assert ledger.dropped("clock_records", "G") == {"damaged number": 1}
+        assert f"{path}:{len(lines)}: RINEX clock record skipped: damaged number" in ledger.warnings
 
 
 def test_garbled_number(tmp_path):
@@ -181,18 +191,22 @@ def test_garbled_number(tmp_path):
     index = next(i for i, l in enumerate(lines) if l.startswith("AS G01"))
     lines[index] = lines[index][:45] + "#" + lines[index][46:]
     path = _bad(tmp_path, "\n".join(lines) + "\n")
-    with pytest.raises(FileFormatError, match=r"bias is not a number") as err:
-        read_rinex_clock(path)
-    assert f"{path}:{index + 1}:" in str(err.value) and "line reads 'AS G01" in str(err.value)
+    ds = read_rinex_clock(path)
+    assert np.isnan(ds["clock_s"].sel(sv="G01").values[0]) and ds["clock_s"].sel(sv="G01").values[1] == -1.26e-4
+    ledger = _ledger(ds)
+    assert ledger.dropped("clock_records", "G") == {"damaged number": 1}
+    assert ledger.warnings == [f"{path}:{index + 1}: RINEX clock record skipped: damaged number"]
 
 
-def test_layout_fits_neither(tmp_path):
+def test_record_in_neither_layout_costs_that_record(tmp_path):
     lines = _clock_file("3.00").splitlines()
     index = next(i for i, l in enumerate(lines) if l.startswith("AR"))
     lines[index] = lines[index][:3] + "MOJN00" + lines[index][3:]  # name 10 characters wide
-    with pytest.raises(FileFormatError, match=r"fit neither the A4-name layout") as err:
-        read_rinex_clock(_bad(tmp_path, "\n".join(lines) + "\n"))
-    assert f":{index + 1}:" in str(err.value)
+    ds = read_rinex_clock(_bad(tmp_path, "\n".join(lines) + "\n"), kinds=("AS", "AR"))
+    assert ds["station_clock_s"].sel(station="MOJN").values.tolist()[1] == 1.6e-7
+    assert np.isnan(ds["station_clock_s"].sel(station="MOJN").values[0])
+    assert _ledger(ds).dropped("clock_records", "-") == {"damaged epoch or name field": 1}
+    assert f":{index + 1}: " in _ledger(ds).warnings[0]
 
 
 def test_mislabelled_version_layout_detected(tmp_path):
@@ -203,8 +217,12 @@ def test_mislabelled_version_layout_detected(tmp_path):
 
 def test_unexpected_line(tmp_path):
     path = _bad(tmp_path, _clock_file("3.00") + "garbage here\n")
-    with pytest.raises(FileFormatError, match=r"neither a data record"):
-        read_rinex_clock(path)
+    ds = read_rinex_clock(path)
+    assert ds.sizes["sv"] == 3
+    ledger = _ledger(ds)
+    assert ledger.dropped("clock_records", "-") == {"damaged line (not a record)": 1,
+                                                     "not read: AR receiver clock": 2}
+    assert ledger.warnings[0].endswith("RINEX clock line skipped: damaged line (not a record)")
 
 
 def test_wrong_version_and_kind(tmp_path):

@@ -75,51 +75,64 @@ def test_not_rinex_at_all(tmp_path):
     assert message.startswith(f"{path}:1: not a RINEX file")
 
 
-def test_truncated_last_record(tmp_path):
-    text = HEADER3 + RECORD + "".join(RECORD.splitlines(True)[:5])
+# A file whose only records are damaged cannot be used: one FileFormatError naming the
+# first damaged record (record-level damage among good records: test_rinex_nav_damage.py).
+NOTHING = "no readable navigation record"
+
+
+def test_only_record_truncated(tmp_path):
+    path, message = _error(tmp_path, HEADER3 + "".join(RECORD.splitlines(True)[:5]))
+    assert message.startswith(f"{path}:4: {NOTHING} (1 read, none usable); first problem: "
+                              f"truncated G record: 5 of 8 lines (record starts at line 4)")
+
+
+def test_only_records_truncated_and_duplicated(tmp_path):
+    lines = RECORD.splitlines(True)
+    text = HEADER3 + "".join(lines[:6]) + "".join(lines[:3] + lines[2:])
     path, message = _error(tmp_path, text)
-    # Second record starts at line 12; its 5th and last line is 16.
-    assert message.startswith(f"{path}:16: truncated G record: 5 of 8 lines (record starts at line 12)")
+    assert message.startswith(f"{path}:4: {NOTHING} (2 read, none usable); first problem: "
+                              f"truncated G record: 6 of 8 lines")
 
 
-def test_truncated_record_inside_the_file(tmp_path):
-    text = HEADER3 + "".join(RECORD.splitlines(True)[:6]) + RECORD
-    path, message = _error(tmp_path, text)
-    assert message.startswith(f"{path}:9: truncated G record: 6 of 8 lines")
-
-
-def test_garbled_number(tmp_path):
+def test_only_record_garbled_number(tmp_path):
     bad = RECORD.replace("5.153783548355E+03", "5.153783X48355E+03")
     path, message = _error(tmp_path, HEADER3 + bad)
-    assert message.startswith(f"{path}:6: garbled number '5.153783X48355E+03' in columns 62-80")
+    assert message.startswith(f"{path}:6: {NOTHING} (1 read, none usable); first problem: G record: "
+                              f"garbled number (expected a right-aligned D19.12) '5.153783X48355E+03' "
+                              f"in columns 62-80")
     assert "line reads" in message
 
 
-def test_garbled_epoch(tmp_path):
+def test_only_record_impossible_epoch(tmp_path):
     path, message = _error(tmp_path, HEADER3 + RECORD.replace("2018 07 29", "2018 13 29"))
-    assert message.startswith(f"{path}:4: impossible epoch")
+    assert message.startswith(f"{path}:4: {NOTHING}")
+    assert "impossible epoch" in message
 
 
-def test_blank_week(tmp_path):
+def test_only_record_blank_week(tmp_path):
     path, message = _error(tmp_path, HEADER3 + RECORD.replace("2.012000000000E+03", " " * 18))
-    assert message.startswith(f"{path}:9: blank week field in a G record")
+    assert message.startswith(f"{path}:9: {NOTHING}")
+    assert "blank week field" in message
 
 
-def test_unknown_system_letter(tmp_path):
+def test_only_record_unknown_system_letter(tmp_path):
     path, message = _error(tmp_path, HEADER3 + RECORD.replace("G02", "X02"))
-    assert message.startswith(f"{path}:4: unknown satellite system letter 'X'")
+    assert message.startswith(f"{path}:4: {NOTHING}")
+    assert "unknown satellite system letter 'X'" in message
 
 
 def test_rinex4_bad_marker(tmp_path):
     text = HEADER3.replace("3.04", "4.00") + "> EPH\n" + RECORD
     path, message = _error(tmp_path, text)
-    assert message.startswith(f"{path}:4: record marker must read '> EPH Gnn TYPE'")
+    assert message.startswith(f"{path}:4: {NOTHING}")
+    assert "record marker must read '> EPH Snn TYPE'" in message
 
 
 def test_rinex4_truncated_eph(tmp_path):
     text = HEADER3.replace("3.04", "4.00") + "> EPH G02 LNAV\n" + "".join(RECORD.splitlines(True)[:7])
     path, message = _error(tmp_path, text)
-    assert message.startswith(f"{path}:11: truncated G record: 7 of 8 lines")
+    assert message.startswith(f"{path}:4: {NOTHING}")
+    assert "truncated G record: 7 of 8 lines" in message
 
 
 def test_unknown_systems_argument(tmp_path):
@@ -136,15 +149,22 @@ def test_missing_file(tmp_path):
 
 def test_file_cut_inside_a_number_is_truncated_not_read(tmp_path):
     # A file cut mid-field still "parses" ("2.95200" of "2.952000000000E+00"), so the reader
-    # checks that every filled D19.12 field ends in its last column (RINEX 3.05 A.2).
+    # checks that every filled D19.12 field ends in its last column (RINEX 3.05 A.2): the
+    # cut record is dropped and counted, the records before it are read.
     from conftest import SAMPLE_LOGS
+
+    from gnssrel.accounting import Ledger
 
     lines = (SAMPLE_LOGS / "KVRP00ZZZ_R_20251621000_03H_MN.rnx").read_text().splitlines(keepends=True)
     first = next(i for i, ln in enumerate(lines) if "END OF HEADER" in ln) + 1
-    assert lines[first][0] == "G"                  # a GPS record: 8 lines
-    last_line = lines[first + 7]
+    assert lines[first][0] == "G" and lines[first + 8][0] == "G"   # two GPS records: 8 lines each
+    last_line = lines[first + 15]
     bad = tmp_path / "cut.rnx"
-    bad.write_text("".join(lines[:first + 7]) + last_line[:12])  # cut inside its first number
-    line_no = first + 8
-    with pytest.raises(FileFormatError, match=rf"cut\.rnx:{line_no}: number in columns .* ends early"):
-        read_navigation(bad)
+    bad.write_text("".join(lines[:first + 15]) + last_line[:12])  # cut inside its first number
+    nav = read_navigation(bad)
+    assert len(nav.ephemerides["G"]) == 1
+    ledger = nav.accounting
+    assert isinstance(ledger, Ledger) and ledger.unbalanced() == []
+    assert ledger.count("navigation_records", "G", "damaged") == 1
+    line_no = first + 16
+    assert any(w.startswith(f"{bad}:{line_no}: ") and "columns 5-23" in w for w in ledger.warnings)

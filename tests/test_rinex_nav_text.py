@@ -248,3 +248,54 @@ def test_merge_drops_duplicates_and_sorts():
     assert len(merged.ephemerides["G"]) == len(gn.ephemerides["G"])
     assert merged.ephemerides["E"].equals(en.ephemerides["E"])
     assert len(merged.header["merged_from"]) == 3
+
+
+BRD4 = "2023-071/BRD400DLR_S_20230710000_01D_MN.rnx.gz"
+
+
+@pytest.mark.refdata
+def test_rinex4_accounting_of_every_record_kind():
+    # Counts of the file's own markers ("> EPH G.. LNAV" ...), counted with grep when the
+    # accounting was written (issue 9); ION records are counted under "-" with STO/EOP.
+    nav = read_navigation(refdata_file(BRD4))
+    acc = nav.accounting
+    assert acc.unbalanced() == [] and acc.warnings == []
+    cells = {s: c for s, c in acc.as_dict()["navigation_records"].items()}
+    assert cells["G"] == {"read": 762, "used": 428, "not read: CNAV": 334}
+    assert cells["E"] == {"read": 5840, "used": 5840}
+    assert cells["C"] == {"read": 2621, "used": 1061, "not read: CNV1": 634, "not read: CNV2": 926}
+    assert cells["J"] == {"read": 292, "used": 96, "not read: CNAV": 98, "not read: CNV2": 98}
+    assert cells["R"] == {"read": 1240, "used": 1240}
+    assert cells["I"] == {"read": 283, "not read: NavIC LNAV": 283}
+    assert cells["S"] == {"read": 9072, "not read: SBAS": 9072}
+    dash = cells["-"]
+    assert (dash["not read: STO"], dash["not read: EOP"]) == (126, 32)
+    assert dash["not read: ION C CNVX"] == 12          # BDGIM: not Klobuchar
+    assert dash["read"] == 126 + 32 + 130              # 130 "> ION" markers
+    assert dash["used"] == 5                           # the first Klobuchar/NeQuick-G of G E C J I
+    assert dash["not read: later ION record of the same kind"] == 130 - 12 - 5
+    assert sorted(nav.header["ionosphere"]) == ["BDSA", "BDSB", "GAL", "GPSA", "GPSB", "IRNA", "IRNB",
+                                                "QZSA", "QZSB"]
+    assert {s: len(t) for s, t in nav.ephemerides.items()} == nav.header["n_records"]
+
+
+@pytest.mark.refdata
+def test_multi_day_file_keeps_every_record():
+    # ELKO 2018-210 carries unhealthy C16 records with impossible orbits (sqrt(A) 1028-1991,
+    # e 0.25-0.49) up to 2018-08-01: what was broadcast is kept (the orbit stage marks them
+    # unhealthy), and the span check keeps the records 2.3 days after the bulk.
+    nav = read_navigation(refdata_file("2018-210/ELKO00USA_R_20182100000_01D_MN.rnx.gz"))
+    assert nav.header["n_records"] == {"G": 225, "E": 1293, "C": 106, "R": 494}
+    assert nav.accounting.unbalanced() == [] and nav.accounting.warnings == []
+
+
+@pytest.mark.refdata
+def test_stale_record_far_from_the_bulk_is_refused():
+    # HERT 2024-092 (a file of 2024-04-01) starts with a G01 record of 2023-07-10: it would
+    # stretch the default time window over nine months.  Refused and counted.
+    path = refdata_file("2024-092/HERT00GBR_R_20240920000_01D_GN.rnx.gz")
+    nav = read_navigation(path)
+    acc = nav.accounting
+    assert acc.count("navigation_records", "G", "refused: epoch far from the file's other records") == 1
+    assert acc.count("navigation_records", "G", "used") == 230 == len(nav.ephemerides["G"])
+    assert acc.warnings[0].startswith(f"{path}:8: G01 record of 2023-07-10")

@@ -37,48 +37,58 @@ def gps_table():
 
 def test_gps_nearest_toe_within_half_fit_interval_and_already_transmitted():
     times = _at([0.5, 1.5, 3.2, 3.6, 6.1, 7.0])
-    rows, status = select_ephemerides(gps_table(), ["G01", "G02", "G03", "G09"], times, "G")
-    # G01: 0.5 h -> toe 0; 1.5 h -> toe 2; 3.2 h -> toe 4 nearest but sent at 3.5 h -> toe 2;
+    rows, status = select_ephemerides(gps_table(), ["G01", "G02", "G03", "G09"], times, "G", rule="receiver")
+    # receiver rule, G01: 0.5 h -> toe 0; 1.5 h -> toe 2; 3.2 h -> toe 4 nearest but sent at 3.5 h -> toe 2;
     # 3.6 h -> toe 4; 6.1 h -> beyond 4 h + 2 h -> none; 7 h -> none.
     assert rows[:, 0].tolist() == [0, 1, 1, 2, -1, -1]
     assert status[:, 0].tolist() == [0, 0, 0, 0, 1, 1]
     assert status[:, 1].tolist() == [2, 2, 2, 2, 1, 1]          # unhealthy inside its window
     assert rows[:, 2].tolist() == [4] * 6                       # 10 h fit interval: toe +- 5 h
     assert status[:, 3].tolist() == [5] * 6                     # not in the navigation data
-    rows_u, status_u = select_ephemerides(gps_table(), ["G02"], times, "G", include_unhealthy=True)
+    rows_u, status_u = select_ephemerides(gps_table(), ["G02"], times, "G", include_unhealthy=True,
+                                          rule="receiver")
     assert rows_u[:4, 0].tolist() == [3, 3, 3, 3] and status_u[:4, 0].tolist() == [0] * 4
+    # post rule (the default): the nearest toe whatever the transmission time -> toe 4 at 3.2 h
+    rows_p, status_p = select_ephemerides(gps_table(), ["G01"], times, "G")
+    assert rows_p[:, 0].tolist() == [0, 1, 2, 2, -1, -1] and status_p[:, 0].tolist() == [0, 0, 0, 0, 1, 1]
 
 
-def test_not_yet_transmitted_has_its_own_reason():
+def test_not_yet_transmitted_has_its_own_reason_under_the_receiver_rule():
     table = _table([{"sv": "G05", "toe": _at(4), "toc": _at(4), "transmission_time": _at(3), "health": 0,
                          "fit_interval_h": 4.0}])
-    rows, status = select_ephemerides(table, ["G05"], _at([2.5, 3.0, 5.9]), "G")
+    rows, status = select_ephemerides(table, ["G05"], _at([2.5, 3.0, 5.9]), "G", rule="receiver")
     assert rows[:, 0].tolist() == [-1, 0, 0]
     assert STATUS_CODES[status[0, 0]] == "ephemeris not yet transmitted"
+    rows, status = select_ephemerides(table, ["G05"], _at([2.5, 3.0, 5.9]), "G", rule="post")
+    assert rows[:, 0].tolist() == [0, 0, 0] and status[:, 0].tolist() == [0, 0, 0]
 
 
-def test_galileo_prefers_inav_keeps_one_hour_and_excludes_e14_e18():
+def test_galileo_prefers_inav_limits_3_h_after_toe_30_min_before_and_excludes_e14_e18():
     table = _table([
-        {"sv": "E01", "toe": _at(1.0), "toc": _at(1.0), "transmission_time": _at(1.0), "nav_type": "FNAV", "health": 0, "accuracy_m": 3.12},
-        {"sv": "E01", "toe": _at(0.5), "toc": _at(0.5), "transmission_time": _at(0.5), "nav_type": "INAV", "health": 0, "accuracy_m": 3.12},
-        {"sv": "E02", "toe": _at(0.5), "toc": _at(0.5), "transmission_time": _at(0.5), "nav_type": "INAV", "health": 0, "accuracy_m": -1.0},
-        {"sv": "E14", "toe": _at(0.5), "toc": _at(0.5), "transmission_time": _at(0.5), "nav_type": "INAV", "health": 390, "accuracy_m": 3.12},
+        {"sv": "E01", "toe": _at(1.0), "toc": _at(1.0), "transmission_time": _at(1.2), "nav_type": "FNAV", "health": 0, "accuracy_m": 3.12},
+        {"sv": "E01", "toe": _at(0.5), "toc": _at(0.5), "transmission_time": _at(0.7), "nav_type": "INAV", "health": 0, "accuracy_m": 3.12},
+        {"sv": "E02", "toe": _at(0.5), "toc": _at(0.5), "transmission_time": _at(0.7), "nav_type": "INAV", "health": 0, "accuracy_m": -1.0},
+        {"sv": "E14", "toe": _at(0.5), "toc": _at(0.5), "transmission_time": _at(0.7), "nav_type": "INAV", "health": 0, "accuracy_m": 3.12},
     ])
-    times = _at([1.1, 1.6, 2.05])
+    times = _at([-0.1, 0.05, 1.1, 3.4, 3.6, 4.1])
     rows, status = select_ephemerides(table, ["E01", "E02", "E14"], times, "E")
     e01_inav, e01_fnav = (table.index[(table.sv == "E01") & (table.nav_type == k)][0] for k in ("INAV", "FNAV"))
-    # 1.1 h: I/NAV (0.6 h old) preferred over the fresher F/NAV; 1.6 h: I/NAV too old -> F/NAV;
-    # 2.05 h: both older than 1 h -> none.
-    assert rows[:, 0].tolist() == [e01_inav, e01_fnav, -1]
-    assert status[:, 1].tolist() == [2, 1, 1]                    # SISA NAPA counts as unhealthy
-    assert status[:, 2].tolist() == [3, 3, 3]                    # excluded by rule
+    # -0.1 h: I/NAV toe 0.6 h ahead (> 30 min before toe) -> none; 0.05 h: 0.45 h ahead -> I/NAV;
+    # 1.1 h: I/NAV (0.6 h old) preferred over the fresher F/NAV; 3.4 h: I/NAV 2.9 h old;
+    # 3.6 h: I/NAV 3.1 h old (> 3 h) -> F/NAV (2.6 h); 4.1 h: both older than 3 h -> none.
+    assert rows[:, 0].tolist() == [-1, e01_inav, e01_inav, e01_inav, e01_fnav, -1]
+    assert status[:, 0].tolist() == [1, 0, 0, 0, 0, 1]
+    assert status[:, 1].tolist() == [1, 2, 2, 2, 1, 1]           # SISA NAPA counts as unhealthy
+    assert status[:, 2].tolist() == [3] * 6                      # excluded by rule
+    # asked for, E14 keeps its own limits (eccentric orbit): 1.5 h after toe, none before
     _, status_u = select_ephemerides(table, ["E14"], times, "E", include_unhealthy=True)
-    assert status_u[:, 0].tolist() == [0, 1, 1]
+    assert status_u[:, 0].tolist() == [1, 1, 0, 1, 1, 1]
 
 
-def test_glonass_within_15_minutes_of_tb():
+def test_glonass_within_20_minutes_of_tb_ties_to_the_newer():
     table = _table([{"sv": "R07", "toc": _at(0.5), "health": 0}, {"sv": "R07", "toc": _at(1.0), "health": 0}])
-    rows, status = select_ephemerides(table, ["R07"], _at([0.2, 0.3, 0.74, 0.76, 1.25, 1.3]), "R")
+    rows, status = select_ephemerides(table, ["R07"], _at([0.16, 0.2, 0.74, 0.75, 4 / 3, 1.34]), "R")
+    # 0.75 h is 15 min from both t_b: the newer (t_b 1.0 h) wins; 1 h 20 min is exactly 20 min after t_b
     assert rows[:, 0].tolist() == [-1, 0, 0, 1, 1, -1]
     assert status[:, 0].tolist() == [1, 0, 0, 0, 0, 1]
 

@@ -8,6 +8,7 @@ import gzip
 import numpy as np
 import pytest
 
+from gnssrel.accounting import Ledger
 from gnssrel.errors import FileFormatError
 from gnssrel.io.sp3 import read_sp3
 
@@ -168,12 +169,23 @@ def _write(tmp_path, text, name="bad.sp3"):
     return path
 
 
+def _ledger(ds):
+    ledger = Ledger.from_dict(ds.attrs["accounting"])
+    assert ledger.unbalanced() == []
+    return ledger
+
+
 def test_truncated_body(tmp_path):
+    # A file cut inside its 3rd of 4 announced epochs keeps what is there (3 + 3 + 2 records),
+    # with a warning naming the file and its last line.
     lines = _sp3d_text(n_sat=3, velocity=False, n_epochs=4).splitlines()
     path = _write(tmp_path, "\n".join(lines[:-6]) + "\n")
-    with pytest.raises(FileFormatError, match=r"truncated: header announces 4 epochs, body has 3") as err:
-        read_sp3(path)
-    assert str(err.value).startswith(f"{path}:{len(lines) - 6}: ")
+    ds = read_sp3(path)
+    assert ds.sizes["time"] == 3 and ds.sizes["sv"] == 3
+    ledger = _ledger(ds)
+    assert ledger.count("sp3_records", "G") == 8 and ledger.count("sp3_records", "G", "used") == 8
+    assert f"{path}:{len(lines) - 6}: SP3 file shorter than announced: header gives 4 epochs, body has 3" \
+        in ledger.warnings[0]
 
 
 def test_record_cut_mid_line(tmp_path):
@@ -181,9 +193,12 @@ def test_record_cut_mid_line(tmp_path):
     index = next(i for i, l in enumerate(lines) if l.startswith("PG02"))
     lines[index] = lines[index][:30]
     path = _write(tmp_path, "\n".join(lines) + "\n")
-    with pytest.raises(FileFormatError, match="P record is truncated") as err:
-        read_sp3(path)
-    assert f"{path}:{index + 1}:" in str(err.value)
+    ds = read_sp3(path)
+    assert np.isnan(ds["position_ecef_m"].sel(sv="G02").isel(time=0)).all()
+    assert np.isfinite(ds["position_ecef_m"].sel(sv="G02").isel(time=1)).all()
+    ledger = _ledger(ds)
+    assert ledger.dropped("sp3_records", "G") == {"record cut short": 1}
+    assert ledger.warnings == [f"{path}:{index + 1}: SP3 record skipped: record cut short"]
 
 
 def test_garbled_number(tmp_path):
@@ -191,10 +206,12 @@ def test_garbled_number(tmp_path):
     index = next(i for i, l in enumerate(lines) if l.startswith("PG02"))
     lines[index] = lines[index][:8] + "x" + lines[index][9:]
     path = _write(tmp_path, "\n".join(lines) + "\n")
-    with pytest.raises(FileFormatError, match=r"P x field is not a number") as err:
-        read_sp3(path)
-    assert f"{path}:{index + 1}:" in str(err.value)
-    assert "line reads 'PG02" in str(err.value)
+    ds = read_sp3(path)
+    assert np.isnan(ds["clock_s"].sel(sv="G02").isel(time=0))
+    assert ds["clock_s"].sel(sv="G01").isel(time=0).item() == pytest.approx(100.0e-6, abs=1e-15)
+    ledger = _ledger(ds)
+    assert ledger.dropped("sp3_records") == {"damaged number": 1}
+    assert ledger.warnings == [f"{path}:{index + 1}: SP3 record skipped: damaged number"]
 
 
 def test_wrong_version(tmp_path):
@@ -207,7 +224,9 @@ def test_wrong_version(tmp_path):
 def test_not_sp3_and_empty(tmp_path):
     with pytest.raises(FileFormatError, match=r"empty file"):
         read_sp3(_write(tmp_path, "", "empty.sp3"))
-    with pytest.raises(FileFormatError, match=r"line 1 must start with '#'"):
+    with pytest.raises(FileFormatError, match=r"empty file"):
+        read_sp3(_write(tmp_path, "\n  \n", "blank.sp3"))
+    with pytest.raises(FileFormatError, match=r"nav.sp3:1: not an SP3 file: the first line must start with '#'"):
         read_sp3(_write(tmp_path, "     3.05           N: GNSS NAV DATA\n", "nav.sp3"))
     lines = _sp3d_text(n_sat=3, velocity=False).splitlines()
     header_only = "\n".join(l for l in lines if not l.startswith(("*", "P", "EOF"))) + "\n"

@@ -23,8 +23,10 @@ import logging
 import numpy as np
 
 from gnssrel import signals
+from gnssrel.accounting import Ledger
 from gnssrel.audit import ionosphere, satellites
 from gnssrel.errors import NoDataError
+from gnssrel.orbits import selection
 from gnssrel.orbits.selection import take_rows
 
 log = logging.getLogger(__name__)
@@ -41,8 +43,42 @@ AUDIT_SYSTEMS = "GECJR"
 """Systems the audit handles."""
 
 
+NOT_REQUESTED = "system not requested"
+NOT_AUDITED = "system not audited"
+NO_CODE = "no usable code observable"
+OTHER_SIGNAL = "another signal chosen (one code or pair per system)"
+NO_SECOND = "no second frequency"
+IMPLAUSIBLE = "implausible pseudorange"
+NO_RECORD = "no navigation record for this satellite"
+UNHEALTHY = "unhealthy"
+NO_STATE = "no satellite state"
+NO_PRECISE = "no precise orbit or clock"
+
+
 def _empty_like_fields():
-    return {k: [] for k in ("epoch", "sv", "system", "pseudorange_m", "code", "frequency_hz")}
+    return {k: [] for k in ("epoch", "sv", "system", "pseudorange_m", "code", "frequency_hz", "n_codes")}
+
+
+def code_variables(obs_ds) -> list[str]:
+    """The pseudorange variables of an observation Dataset (RINEX codes C.., and P1/P2 of RINEX 2)."""
+    return [str(v) for v in obs_ds.data_vars if str(v)[:1] in ("C", "P")]
+
+
+def pseudorange_counts(obs_ds, time_mask=None) -> dict[str, int]:
+    """{system letter: finite pseudoranges} of the Dataset (at the epochs of ``time_mask``)."""
+    sv = np.asarray(obs_ds["sv"].values).astype(str)
+    letters = np.array([s[:1] for s in sv])
+    per_sv = np.zeros(sv.size, dtype=np.int64)
+    for v in code_variables(obs_ds):
+        values = np.asarray(obs_ds[v].values, dtype=float)
+        if time_mask is not None:
+            values = values[np.asarray(time_mask, bool)]
+        per_sv += np.isfinite(values).sum(axis=0)
+    return {str(s): int(per_sv[letters == s].sum()) for s in np.unique(letters) if per_sv[letters == s].sum()}
+
+
+def _finite_per_variable(obs_ds, variables, cols) -> dict[str, np.ndarray]:
+    return {v: np.isfinite(np.asarray(obs_ds[v].values, dtype=float)[:, cols]) for v in variables}
 
 
 def select_pseudoranges(obs_ds, systems=None) -> dict[str, np.ndarray]:
@@ -50,17 +86,26 @@ def select_pseudoranges(obs_ds, systems=None) -> dict[str, np.ndarray]:
     return the flat arrays ``epoch``, ``sv``, ``system``, ``pseudorange_m``, ``code``,
     ``frequency_hz`` of every (epoch, satellite) with a usable pseudorange."""
     sv_all = np.asarray(obs_ds["sv"].values).astype(str)
-    variables = [v for v in obs_ds.data_vars if str(v)[:1] in ("C", "P")]   # code observables
+    variables = code_variables(obs_ds)
     parts = _empty_like_fields()
     wanted = set(systems) if systems else set(AUDIT_SYSTEMS)
-    for system in sorted({s[0] for s in sv_all} & wanted & set(AUDIT_SYSTEMS)):
+    drops = Ledger()          # what this stage leaves aside, per system (retired from "used")
+    for system in sorted({s[0] for s in sv_all}):
         cols = np.flatnonzero(np.char.startswith(sv_all, system))
+        finite = _finite_per_variable(obs_ds, variables, cols)
+        n_all = int(sum(f.sum() for f in finite.values()))
+        if system not in wanted or system not in AUDIT_SYSTEMS:
+            drops.retire("observations", system, NOT_REQUESTED if system not in wanted else NOT_AUDITED, n_all)
+            continue
         # Codes this system has data in (a mixed file holds every system's codes as variables).
-        held = {v for v in variables if np.isfinite(np.asarray(obs_ds[v].values)[:, cols]).any()}
+        held = {v for v in variables if finite[v].any()}
         codes = ionosphere.choose_codes(system, held)
         if codes is None:
             log.warning("no usable code observable for system %s; skipped", system)
+            drops.retire("observations", system, NO_CODE, n_all)
             continue
+        drops.retire("observations", system, OTHER_SIGNAL,
+                     int(sum(f.sum() for v, f in finite.items() if v not in codes)))
         arrays = [np.asarray(obs_ds[c].values, dtype=float)[:, cols] for c in codes]
         if len(codes) == 2:
             f1, f2 = (signals.frequency_hz(system, c) for c in codes)
@@ -70,7 +115,12 @@ def select_pseudoranges(obs_ds, systems=None) -> dict[str, np.ndarray]:
             p = arrays[0]
             freq = signals.frequency_hz(system, codes[0])
         lo, hi = PLAUSIBLE_RANGE_M[system]
-        p = np.where((p > lo) & (p < hi), p, np.nan)        # gross errors and empty fields
+        if len(codes) == 2:              # one code of a pair alone cannot make the combination
+            drops.retire("observations", system, NO_SECOND, int((finite[codes[0]] ^ finite[codes[1]]).sum()))
+        formed = np.isfinite(p)
+        plausible = formed & (p > lo) & (p < hi)
+        drops.retire("observations", system, IMPLAUSIBLE, len(codes) * int((formed & ~plausible).sum()))
+        p = np.where(plausible, p, np.nan)        # gross errors and empty fields
         ep, col = np.nonzero(np.isfinite(p))
         parts["epoch"].append(ep)
         parts["sv"].append(sv_all[cols][col])
@@ -78,12 +128,72 @@ def select_pseudoranges(obs_ds, systems=None) -> dict[str, np.ndarray]:
         parts["pseudorange_m"].append(p[ep, col])
         parts["code"].append(np.full(ep.size, "+".join(codes)))
         parts["frequency_hz"].append(np.full(ep.size, freq))
-    if not parts["epoch"]:
-        raise NoDataError("no pseudoranges of a supported system (GPS, Galileo, BeiDou, QZSS, GLONASS) "
-                          "in the observation data")
+        parts["n_codes"].append(np.full(ep.size, len(codes), dtype=np.int64))
+    if not parts["epoch"] or not sum(e.size for e in parts["epoch"]):
+        raise NoDataError(_no_pseudorange_message(obs_ds, sv_all, wanted, drops),
+                          obs_ds.attrs.get("path") or obs_ds.attrs.get("filename"))
     out = {k: np.concatenate(v) for k, v in parts.items()}
     order = np.lexsort((out["sv"], out["epoch"]))
-    return {k: v[order] for k, v in out.items()}
+    out = {k: v[order] for k, v in out.items()}
+    out["accounting"] = drops
+    return out
+
+
+def _no_pseudorange_message(obs_ds, sv_all, wanted, drops) -> str:
+    n_epochs = int(obs_ds.sizes.get("time", 0))
+    systems = "".join(sorted({s[0] for s in sv_all}))
+    text = (f"no pseudoranges of a supported system (GPS, Galileo, BeiDou, QZSS, GLONASS) in the "
+            f"observation data: {n_epochs} epoch{'s' if n_epochs != 1 else ''} read")
+    if systems:
+        text += f", satellites of {systems}"
+        reasons = drops.dropped("observations")
+        if reasons:
+            text += "; " + ", ".join(f"{n} {r}" for r, n in reasons.items())
+        if not set(systems) & wanted:
+            text += f" (systems requested: {''.join(sorted(wanted))})"
+    else:
+        text += " (header only, truncated or not an observation file?)"
+    return text
+
+
+def _state_reasons(st, sv, eph, precise: bool) -> np.ndarray:
+    """Per observation: "" where the satellite has a state, else why not (from the status codes)."""
+    ok = np.all(np.isfinite(st["position_ecef_m"]), axis=1)
+    status = np.asarray(st["status"])
+    out = np.full(status.shape, "", dtype=object)
+    if precise:
+        out[~ok | (status != 0)] = NO_PRECISE
+        return out
+    labels = dict(selection.STATUS_CODES)
+    text = np.array([NO_STATE + (f" ({labels[c]})" if c in labels else "") for c in range(max(labels) + 1)],
+                    dtype=object)
+    text[selection.STATUS_UNHEALTHY] = UNHEALTHY
+    text[selection.STATUS_NO_SATELLITE] = NO_RECORD
+    bad = ~ok | (status != 0)
+    codes = np.clip(status.astype(np.int64), 0, len(text) - 1)
+    out[bad] = np.where(status[bad] == 0, NO_STATE, text[codes[bad]])
+    out[bad & ~np.isin(sv, np.asarray(eph["sv"]))] = NO_RECORD
+    return out
+
+
+def stage_drops(obs: dict, extra_reasons=None) -> Ledger:
+    """The select stage's drops plus one count per (system, reason) of the observations left
+    aside later: ``obs["drop_reason"]`` and ``extra_reasons`` (an object array, "" = used);
+    each observation weighs its number of codes (two for a combination)."""
+    drops = Ledger().merge(obs.get("accounting"))
+    reasons = obs["drop_reason"].copy()
+    if extra_reasons is not None:
+        reasons = np.where(reasons == "", extra_reasons, reasons)
+    weight = obs.get("n_codes", np.ones(reasons.size, dtype=np.int64))
+    dropped = reasons != ""
+    if dropped.any():
+        keys = np.char.add(np.char.add(obs["system"][dropped].astype(str), "|"), reasons[dropped].astype(str))
+        uniq, inverse = np.unique(keys, return_inverse=True)
+        sums = np.bincount(inverse, weights=weight[dropped])
+        for key, n in zip(uniq, sums):
+            system, reason = str(key).split("|", 1)
+            drops.retire("observations", system, reason, int(n))
+    return drops
 
 
 _FIELDS = {"satellite_clock_s": "satellite_clock_s", "periodic_s": "periodic_s", "j2_s": "j2_s",
@@ -93,12 +203,14 @@ _FIELDS = {"satellite_clock_s": "satellite_clock_s", "periodic_s": "periodic_s",
 """Observation key <- key of the per-system state dict of :mod:`gnssrel.audit.satellites`."""
 
 
-def prepare_observations(obs_ds, nav, systems=None, include_unhealthy: bool = False, precise=None) -> dict:
+def prepare_observations(obs_ds, nav, systems=None, include_unhealthy: bool = False, precise=None,
+                         rule: str = "post") -> dict:
     """Flat per-observation arrays with transmit time, satellite state and clock terms.
 
     ``nav``: a ``NavigationData`` (records for the choice of group delays and, without
     ``precise``, the orbits and clocks).  ``precise``: None, or a mapping with ``orbits``
     (an SP3 Dataset) and ``clocks`` (a Dataset with ``clock_s``: the SP3 or a RINEX clock file).
+    ``rule``: the record-selection rule, ``"post"`` or ``"receiver"`` (:mod:`gnssrel.orbits.selection`).
     """
     obs = select_pseudoranges(obs_ds, systems)
     times = np.asarray(obs_ds["time"].values, dtype="datetime64[ns]")
@@ -111,6 +223,7 @@ def prepare_observations(obs_ds, nav, systems=None, include_unhealthy: bool = Fa
     obs["state_status"] = np.full(n, -1, dtype=np.int8)
     obs["periodic_in_clock"] = np.zeros(n, bool)
     obs["clock_source"] = "broadcast" if precise is None else "precise"
+    obs["drop_reason"] = np.full(n, "", dtype=object)     # why an observation has no state ("" = has one)
     for name in ("satellite_clock_s", "periodic_s", "j2_s", "group_delay_m"):
         obs[name] = np.full(n, np.nan)
     for system in np.unique(obs["system"]):
@@ -118,17 +231,19 @@ def prepare_observations(obs_ds, nav, systems=None, include_unhealthy: bool = Fa
         idx = np.flatnonzero(obs["system"] == system)
         if eph is None or len(eph) == 0:
             log.warning("no broadcast records for system %s in the navigation data", system)
+            obs["drop_reason"][idx] = NO_RECORD
             continue
         sv, t, p = obs["sv"][idx], obs["time"][idx], obs["pseudorange_m"][idx]
         if precise is None:
-            st = satellites.broadcast_at_transmit(eph, system, sv, t, p, include_unhealthy)
+            st = satellites.broadcast_at_transmit(eph, system, sv, t, p, include_unhealthy, rule=rule)
             rows = st["ephemeris_row"]
         else:
-            rows, _ = satellites.choose_records(eph, system, sv, t, include_unhealthy)
+            rows, _ = satellites.choose_records(eph, system, sv, t, include_unhealthy, rule=rule)
             st = satellites.precise_at_transmit(precise["orbits"], precise["clocks"], system, sv, t, p)
         for key, source in _FIELDS.items():
             obs[key][idx] = st[source]
         obs["ephemeris_row"][idx] = rows
+        obs["drop_reason"][idx] = _state_reasons(st, sv, eph, precise is not None)
         codes = tuple(obs["code"][idx[0]].split("+"))
         if system == "R" and len(codes) == 1:           # FDMA: the carrier of the satellite's channel
             obs["frequency_hz"][idx] = signals.glonass_frequency_hz(

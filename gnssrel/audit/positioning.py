@@ -131,7 +131,8 @@ class _Problem:
 
 def single_point_positions(obs: dict, n_epoch: int, times, terms=None, elevation_mask_deg: float = 10.0,
                            initial_ecef_m=None, ionosphere_header=None, reject_m: float = 30.0,
-                           max_iterations: int = 15, weighting: str = "elevation") -> pd.DataFrame:
+                           max_iterations: int = 15, weighting: str = "elevation",
+                           diagnostics: dict | None = None) -> pd.DataFrame:
     """Positions of every epoch from the prepared observations (:func:`prepare_observations`).
 
     ``n_epoch`` and ``times`` describe the epoch grid that ``obs["epoch"]`` indexes.
@@ -139,11 +140,15 @@ def single_point_positions(obs: dict, n_epoch: int, times, terms=None, elevation
     for what a misapplied term does to a fix (NYA1 2024-05-03, GPS, periodic term omitted:
     median 3D error 8.85 m elevation-weighted, 7.50 m with equal weights; 2.36 / 2.39 m
     with it applied).
+    ``diagnostics``: a dict that receives ``reasons``, per observation "" where it was used
+    in its epoch's fix, else why not (no satellite clock, below the elevation mask, outlier,
+    epoch without a position); the counts of the accounting come from it.
     """
     problem = _Problem(obs, n_epoch, resolve_terms(terms), elevation_mask_deg, ionosphere_header, weighting)
     epoch = problem.epoch
-    active = np.isfinite(obs["pseudorange_m"]) & np.all(np.isfinite(obs["satellite_ecef_m"]), axis=1) \
-        & np.isfinite(obs["satellite_clock_s"])
+    has_state = np.isfinite(obs["pseudorange_m"]) & np.all(np.isfinite(obs["satellite_ecef_m"]), axis=1)
+    active = has_state & np.isfinite(obs["satellite_clock_s"])
+    candidates = active.copy()
     state = np.zeros((n_epoch, problem.n_unknown))
     near = np.zeros(n_epoch, bool)
     if initial_ecef_m is not None:
@@ -165,10 +170,31 @@ def single_point_positions(obs: dict, n_epoch: int, times, terms=None, elevation
     rms = np.sqrt(np.bincount(epoch, weights=np.where(used, resid, 0.0) ** 2, minlength=n_epoch)
                   / np.maximum(n_used, 1))
     ok = solvable & near
+    if diagnostics is not None:
+        diagnostics["reasons"] = _observation_reasons(has_state, candidates, active, weight, resid, ok[epoch])
     out = np.where(ok[:, None], state, np.nan)
     return pd.DataFrame({"time": np.asarray(times), "x_m": out[:, 0], "y_m": out[:, 1], "z_m": out[:, 2],
                          "clock_m": out[:, 3], "n_used": n_used.astype(int),
                          "rms_m": np.where(ok, rms, np.nan)})
+
+
+NO_CLOCK = "no satellite clock"
+BELOW_MASK = "below the elevation mask"
+OUTLIER = "outlier"
+NO_FIX = "epoch without a position (too few satellites)"
+NO_MODEL = "no modelled value"
+
+
+def _observation_reasons(has_state, candidates, active, weight, resid, epoch_ok) -> np.ndarray:
+    """Per observation: "" where it was used in its epoch's fix, else the first reason that applies
+    (an observation without a state gets "": the caller knows why it has none)."""
+    reasons = np.full(has_state.size, "", dtype=object)
+    conditions = [(has_state & ~candidates, NO_CLOCK), (candidates & ~active, OUTLIER),
+                  (active & ~(weight > 0), BELOW_MASK), (active & (weight > 0) & ~np.isfinite(resid), NO_MODEL),
+                  (active & ~epoch_ok, NO_FIX)]
+    for mask, reason in reversed(conditions):   # the first listed wins
+        reasons[mask] = reason
+    return reasons
 
 
 def _epoch_max_index(values, epoch, n_epoch):

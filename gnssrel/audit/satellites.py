@@ -4,8 +4,9 @@ The audit needs every satellite at the transmit time of each observation, which
 differs per observation, so it evaluates the shared orbit and clock stages on
 flat arrays ``(n,)`` (positions ``(n, 3)``) instead of on a fixed grid:
 
-* broadcast record: :func:`gnssrel.orbits.selection.select_ephemerides` (the
-  rules per system as data: fit interval, "already transmitted", health),
+* broadcast record: :func:`gnssrel.orbits.selection.select_ephemerides` under the
+  named rule (``"post"`` by default, or ``"receiver"``: only records already
+  transmitted; the limits per system as data: maximum age, health),
   chosen at the receive time tag (the transmit time is 0.07-0.13 s earlier,
   which cannot change the choice except at a record's very edge);
 * broadcast orbit: :func:`gnssrel.orbits.keplerian.kepler_states` (G, E, C, J)
@@ -42,7 +43,7 @@ from gnssrel.constants import C_M_S, SYSTEMS
 from gnssrel.orbits.glonass import ACCELERATION_COLUMNS, STATE_COLUMNS, glonass_states
 from gnssrel.orbits.keplerian import ELEMENT_COLUMNS, kepler_states
 from gnssrel.orbits.precise import STATUS_OK, STATUS_OUTSIDE, precise_states
-from gnssrel.orbits.selection import select_ephemerides, take_rows
+from gnssrel.orbits.selection import DEFAULT_RULE, select_ephemerides, take_rows
 from gnssrel.relativity.clock_terms import (
     j2_periodic_s,
     osculating_elements,
@@ -66,12 +67,13 @@ def offset_times(t_gpst, offset_s) -> np.ndarray:
     return np.where(np.isfinite(offset), out, np.datetime64("NaT"))
 
 
-def choose_records(table, system: str, sv, t_gpst, include_unhealthy: bool = False):
-    """(row, status) per observation from :func:`select_ephemerides` on the grid of the
-    observations' distinct times and satellites; ``sv``, ``t_gpst``: ``(n,)``."""
+def choose_records(table, system: str, sv, t_gpst, include_unhealthy: bool = False,
+                   rule: str = DEFAULT_RULE):
+    """(row, status) per observation from :func:`select_ephemerides` (under ``rule``) on the
+    grid of the observations' distinct times and satellites; ``sv``, ``t_gpst``: ``(n,)``."""
     names, sv_idx = np.unique(np.asarray(sv), return_inverse=True)
     epochs, t_idx = np.unique(np.asarray(t_gpst).astype("datetime64[ns]"), return_inverse=True)
-    rows, status = select_ephemerides(table, list(names), epochs, system, include_unhealthy)
+    rows, status = select_ephemerides(table, list(names), epochs, system, include_unhealthy, rule=rule)
     return rows[t_idx.ravel(), sv_idx.ravel()], status[t_idx.ravel(), sv_idx.ravel()]
 
 
@@ -94,16 +96,17 @@ def transmit_states(state_at, t_rx, pseudorange_m) -> dict:
     return state
 
 
-def broadcast_at_transmit(table, system: str, sv, t_rx, pseudorange_m, include_unhealthy: bool = False) -> dict:
+def broadcast_at_transmit(table, system: str, sv, t_rx, pseudorange_m, include_unhealthy: bool = False,
+                          rule: str = DEFAULT_RULE) -> dict:
     """Broadcast state and clock of each observation at its transmit time.
 
     Returns ``(n,)`` arrays (vectors ``(n, 3)``): ``position_ecef_m`` (Earth-fixed frame of
     the transmit time), ``velocity_ecef_m_per_s``, ``satellite_clock_s`` (the polynomial),
     ``periodic_s``, ``periodic_in_clock`` (bool: the polynomial holds it), ``j2_s``,
     ``clock_total_s``, ``transmit_offset_s``, ``ephemeris_row``, ``status``
-    (:data:`gnssrel.orbits.selection.STATUS_CODES`).
+    (:data:`gnssrel.orbits.selection.STATUS_CODES`).  ``rule``: the record-selection rule.
     """
-    rows, status = choose_records(table, system, sv, t_rx, include_unhealthy)
+    rows, status = choose_records(table, system, sv, t_rx, include_unhealthy, rule)
     holds = POLYNOMIAL_HOLDS_PERIODIC[system]
     if system == "R":
         rec = {c: take_rows(table, c, rows) for c in _GLONASS_COLUMNS}

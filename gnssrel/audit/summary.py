@@ -23,7 +23,7 @@ import pandas as pd
 
 from gnssrel.audit import firmware
 from gnssrel.audit.corrections import corrections_table
-from gnssrel.audit.observables import prepare_observations
+from gnssrel.audit.observables import prepare_observations, stage_drops
 from gnssrel.audit.positioning import position_errors_3d_m, single_point_positions
 from gnssrel.audit.relativity_fit import relativity_k
 
@@ -46,12 +46,14 @@ class AuditResult:
 
 def audit_log(obs_ds, nav, receiver_position_ecef_m=None, systems=None, elevation_mask_deg: float = 10.0,
               fixes: pd.DataFrame | None = None, precise=None,
-              receiver_clocks: pd.DataFrame | None = None, weighting: str = "elevation") -> AuditResult:
+              receiver_clocks: pd.DataFrame | None = None, weighting: str = "elevation",
+              rule: str = "post") -> AuditResult:
     """Run the receiver audit on one log (see the module text).
 
     ``precise``: None or ``{"orbits": SP3 Dataset, "clocks": Dataset with clock_s}``
     (:func:`gnssrel.audit.observables.prepare_observations`); ``receiver_clocks``: a table of
     :func:`gnssrel.io.receiver_clocks.read_receiver_clocks`, checked over the log's time span.
+    ``rule``: the broadcast record-selection rule, ``"post"`` or ``"receiver"``.
     """
     if receiver_position_ecef_m is not None:
         reference, ref = "given", np.asarray(receiver_position_ecef_m, float)
@@ -59,15 +61,17 @@ def audit_log(obs_ds, nav, receiver_position_ecef_m=None, systems=None, elevatio
         reference, ref = "header", np.asarray(obs_ds.attrs["position"], float)
     else:
         reference, ref = "none", None
-    obs = prepare_observations(obs_ds, nav, systems, precise=precise)
+    obs = prepare_observations(obs_ds, nav, systems, precise=precise, rule=rule)
     iono = getattr(nav, "header", {}).get("ionosphere")
     times = obs_ds["time"].values
     hypotheses = dict(firmware.HYPOTHESES) if fixes is not None else \
         {k: firmware.HYPOTHESES[k] for k in ("applied", "omitted")}
+    used_in_fix: dict = {}            # the "applied" fix says which observations were used
     positions = {name: single_point_positions(obs, times.size, times, terms=terms,
                                               elevation_mask_deg=elevation_mask_deg,
                                               initial_ecef_m=ref, ionosphere_header=iono,
-                                              weighting=weighting)
+                                              weighting=weighting,
+                                              diagnostics=used_in_fix if name == "applied" else None)
                  for name, terms in hypotheses.items()}
     if ref is None:                       # no position known: the corrections use our own median fix
         ref = np.nanmedian(positions["applied"][["x_m", "y_m", "z_m"]].to_numpy(), axis=0)
@@ -81,7 +85,15 @@ def audit_log(obs_ds, nav, receiver_position_ecef_m=None, systems=None, elevatio
                        reference_ecef_m=ref, n_epochs=int(np.unique(obs["epoch"]).size),
                        n_sat=int(np.unique(obs["sv"]).size), systems=sorted(np.unique(obs["system"]).tolist()),
                        firmware=firm, clock_check=clock_check, clock_source=obs["clock_source"],
-                       extra={"log": _log_health(obs_ds), "weighting": weighting})
+                       extra={"log": _log_health(obs_ds), "weighting": weighting, "selection_rule": rule,
+                              "observation_drops": stage_drops(obs, used_in_fix.get("reasons")),
+                              "ephemeris_rows": _rows_by_system(obs)})
+
+
+def _rows_by_system(obs) -> dict[str, np.ndarray]:
+    """{system: the navigation table rows any observation used}, for the accounting of records."""
+    rows = obs["ephemeris_row"]
+    return {str(s): np.unique(rows[(obs["system"] == s) & (rows >= 0)]) for s in np.unique(obs["system"])}
 
 
 def _log_health(obs_ds) -> dict:
@@ -140,6 +152,7 @@ def audit_summary(result: AuditResult, receiver_clock_verdict: str | None = None
                              "n_rejected": f["n_rejected"], "n_sat": f["n_sat"]}
                          for s, f in result.k_fits.items()},
         "clock_source": result.clock_source,
+        "selection_rule": result.extra.get("selection_rule", "post"),
         "position": position,
         "receiver_verdict": "; ".join(verdicts) if verdicts else None,
     }

@@ -106,6 +106,11 @@ def compare_clocks(nav, precise_clock_ds, systems=None, start=None, end=None, st
     if not keep_t.any():
         raise NoDataError(f"no epoch of the {precise_source} lies in the requested window/step")
     clock = clock.isel(time=np.flatnonzero(keep_t), sv=np.flatnonzero(keep_sv))
+    # Duplicate keys (two products merged by hand, a repeated line): the readers refuse and count
+    # them; a Dataset built elsewhere keeps its first time and satellite label (no ambiguous .sel).
+    first_t = np.sort(np.unique(clock["time"].values, return_index=True)[1])
+    first_s = np.sort(np.unique(np.asarray(clock["sv"].values).astype(str), return_index=True)[1])
+    clock = clock.isel(time=first_t, sv=first_s)
     has_data = np.isfinite(clock.values).any(axis=0)
     clock = clock.isel(sv=np.flatnonzero(has_data))
     if clock.sizes["sv"] == 0:

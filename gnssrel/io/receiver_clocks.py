@@ -26,26 +26,37 @@ Example::
     2020-06-25T06:00:00,GPST,G05,-1.2345678901e-04,
     2020-06-25T06:00:00,GPST,R07,3.21e-05,
 
-Times are converted to GPST (``gnssrel.timescales.to_gpst``).  A bad row raises
-``FileFormatError`` naming the file and line; an unknown scale raises it too.
+Times are converted to GPST (``gnssrel.timescales.to_gpst``).  A bad row (wrong
+number of columns, a satellite that is no RINEX name, a time that is not ISO 8601, an
+unknown scale, a correction that is not a plain number or beyond 10 ms, a satellite
+twice at one epoch) is refused: it costs that row only, is counted in the table's
+``attrs["accounting"]`` (item ``receiver_clock_rows``, system "-" when the row's
+satellite cannot be told) and warned about with its line.  A table without the
+required columns, or with no usable row, is a ``FileFormatError`` naming the file.
 """
 
 from __future__ import annotations
 
-import io
 import re
 from pathlib import Path
 
 import numpy as np
 import pandas as pd
 
+from gnssrel.accounting import NO_SYSTEM, Ledger
 from gnssrel.errors import FileFormatError, TimeScaleError
 from gnssrel.io.opening import read_text
 from gnssrel.timescales import to_gpst
 
 REQUIRED_COLUMNS = ("time", "time_scale", "sv", "clock_correction_s")
 ACCEPTED_SCALES = ("GPST", "GST", "BDT", "UTC", "GLONASST", "QZSST")
+ITEM = "receiver_clock_rows"
+MAX_CORRECTION_S = 1e-2
+"""A satellite clock correction beyond 10 ms cannot be one: GPS a_f0 is 22 bits of 2^-31 s,
+below 1 ms (IS-GPS-200 table 20-III, from memory); GLONASS tau_n likewise (22 bits of 2^-30 s)."""
 _SV = re.compile(r"^[GRECJ]\d\d$")
+_PLAIN_NUMBER = r"^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$"   # no '_', NaN, INF, hex
+_ISO_TIME = r"^\d{4}-\d\d-\d\dT\d\d:\d\d(:\d\d(\.\d{1,9})?)?$"
 
 
 def read_receiver_clocks(path: str | Path) -> pd.DataFrame:
@@ -53,9 +64,11 @@ def read_receiver_clocks(path: str | Path) -> pd.DataFrame:
 
     Returns a DataFrame sorted by (time, sv) with columns ``time`` (GPST
     datetime64[ns]), ``sv``, ``clock_correction_s``, ``flags``, ``time_scale`` (as
-    in the file) and ``line`` (line number in the file).
+    in the file) and ``line`` (line number in the file); ``attrs["accounting"]`` is the
+    reader's :class:`gnssrel.accounting.Ledger` as a dict.
     """
-    text = read_text(path)
+    ledger = Ledger()
+    text = read_text(path, ledger)
     lines = text.splitlines()
     body = [(n, s) for n, s in enumerate(lines, start=1) if s.strip() and not s.lstrip().startswith("#")]
     if not body:
@@ -70,56 +83,62 @@ def read_receiver_clocks(path: str | Path) -> pd.DataFrame:
     rows = body[1:]
     if not rows:
         raise FileFormatError("receiver clock table has a header but no rows", path, header_line, header)
-    data = "\n".join(s for _, s in rows)
-    try:
-        df = pd.read_csv(io.StringIO(data), names=columns, header=None, dtype=str, keep_default_na=False,
-                         skipinitialspace=True)
-    except (pd.errors.ParserError, ValueError) as exc:
-        raise FileFormatError(f"cannot parse receiver clock table ({exc})", path) from None
-    df["line"] = [n for n, _ in rows]
-    _check_row_lengths(rows, len(columns), path)
-    df["sv"] = df["sv"].str.strip()
-    bad_sv = ~df["sv"].str.match(_SV)
-    if bad_sv.any():
-        _fail(df, bad_sv, "satellite must be a RINEX name like G05", path, lines)
-    df["clock_correction_s"] = pd.to_numeric(df["clock_correction_s"].str.strip(), errors="coerce")
-    bad = ~np.isfinite(df["clock_correction_s"].to_numpy(dtype=np.float64))
-    if bad.any():
-        _fail(df, bad, "clock_correction_s is not a number (seconds)", path, lines)
-    times = pd.to_datetime(df["time"].str.strip(), errors="coerce", format="ISO8601")
-    if times.isna().any():
-        _fail(df, times.isna(), "time is not an ISO 8601 epoch (e.g. 2020-06-25T06:00:00)", path, lines)
-    if getattr(times.dt, "tz", None) is not None:
-        raise FileFormatError("times must not carry a zone; put the scale in time_scale", path)
-    scales = df["time_scale"].str.strip().str.upper()
-    unknown = ~scales.isin(ACCEPTED_SCALES)
-    if unknown.any():
-        _fail(df, unknown, f"unknown time scale (use one of {', '.join(ACCEPTED_SCALES)})", path, lines)
-    t_gpst = np.empty(len(df), dtype="datetime64[ns]")
+    cells = [[c.strip() for c in s.split(",")] for _, s in rows]
+    df = pd.DataFrame({"line": np.array([n for n, _ in rows], dtype=np.int64),
+                       "n_cells": np.array([len(c) for c in cells], dtype=np.int64)})
+    for k, name in enumerate(columns):
+        df[name] = [c[k] if k < len(c) else "" for c in cells]
+    sv_ok = df["sv"].str.match(_SV)
+    df["system"] = np.where(sv_ok, df["sv"].str[:1], NO_SYSTEM)
+    for system, n in df["system"].value_counts().items():
+        ledger.read(ITEM, system, int(n))
+    reason = pd.Series("", index=df.index)
+
+    def refuse(bad, why):
+        bad = np.asarray(bad, bool) & (reason == "").to_numpy()
+        reason[bad] = why
+
+    refuse(df["n_cells"] != len(columns), f"not {len(columns)} columns as in the header")
+    refuse(~sv_ok, "satellite is not a RINEX name like G05")
+    number_ok = df["clock_correction_s"].str.match(_PLAIN_NUMBER)
+    refuse(~number_ok, "clock_correction_s is not a plain number (seconds)")
+    value = pd.to_numeric(df["clock_correction_s"].where(number_ok, "nan"), errors="coerce").to_numpy(float)
+    refuse(number_ok & ~(np.abs(value) <= MAX_CORRECTION_S),
+           f"clock_correction_s beyond {MAX_CORRECTION_S:g} s")
+    time_ok = df["time"].str.match(_ISO_TIME)
+    times = pd.to_datetime(df["time"].where(time_ok, None), errors="coerce", format="ISO8601")
+    refuse(times.isna().to_numpy(), "time is not an ISO 8601 epoch (e.g. 2020-06-25T06:00:00)")
+    scales = df["time_scale"].str.upper()
+    refuse(~scales.isin(ACCEPTED_SCALES), f"unknown time scale (use one of {', '.join(ACCEPTED_SCALES)})")
+    ok = (reason == "").to_numpy()
+    t_gpst = np.full(len(df), np.datetime64("NaT"), dtype="datetime64[ns]")
     raw = times.to_numpy().astype("datetime64[ns]")
-    for scale in scales.unique():
-        sel = (scales == scale).to_numpy()
+    for scale in scales[ok].unique():
+        sel = ok & (scales == scale).to_numpy()
         try:
             t_gpst[sel] = to_gpst(raw[sel], scale)
         except TimeScaleError as exc:
-            _fail(df, sel, exc.message, path, lines)
-    out = pd.DataFrame({"time": t_gpst, "sv": df["sv"].to_numpy(),
-                        "clock_correction_s": df["clock_correction_s"].to_numpy(dtype=np.float64),
-                        "flags": df["flags"].str.strip().to_numpy() if "flags" in df else "",
-                        "time_scale": scales.to_numpy(), "line": df["line"].to_numpy()})
-    duplicated = out.duplicated(["time", "sv"])
-    if duplicated.any():
-        _fail(out, duplicated, "a satellite appears twice at the same epoch", path, lines)
-    return out.sort_values(["time", "sv"], kind="stable").reset_index(drop=True)
-
-
-def _check_row_lengths(rows, n_columns, path):
-    for n, s in rows:
-        if s.count(",") + 1 < n_columns:
-            raise FileFormatError(f"row has fewer than the header's {n_columns} columns", path, n, s)
-
-
-def _fail(df, bad, message, path, lines):
-    first = int(np.flatnonzero(np.asarray(bad))[0])
-    line = int(df["line"].iloc[first])
-    raise FileFormatError(message, path, line, lines[line - 1])
+            refuse(sel, exc.message)
+    ok = (reason == "").to_numpy()
+    repeated = np.zeros(len(df), bool)
+    repeated[ok] = pd.DataFrame({"t": t_gpst[ok], "sv": df["sv"].to_numpy()[ok]}).duplicated().to_numpy()
+    refuse(repeated, "the satellite appears twice at the same epoch (the first row is kept)")
+    ok = (reason == "").to_numpy()
+    for why in reason[~ok].unique():
+        bad = (reason == why).to_numpy()
+        for system, n in df["system"][bad].value_counts().items():
+            ledger.drop(ITEM, system, why, int(n))
+        for line in df["line"][bad].to_numpy()[:20]:
+            ledger.warn(f"receiver clock row refused: {why}", path, int(line))
+    for system, n in df["system"][ok].value_counts().items():
+        ledger.used(ITEM, system, int(n))
+    if not ok.any():
+        first = int(df["line"].iloc[0])
+        raise FileFormatError(f"no usable row in the receiver clock table ({reason.iloc[0]})",
+                              path, first, lines[first - 1])
+    out = pd.DataFrame({"time": t_gpst[ok], "sv": df["sv"].to_numpy()[ok], "clock_correction_s": value[ok],
+                        "flags": df["flags"].to_numpy()[ok] if "flags" in df else "",
+                        "time_scale": scales.to_numpy()[ok], "line": df["line"].to_numpy()[ok]})
+    out = out.sort_values(["time", "sv"], kind="stable").reset_index(drop=True)
+    out.attrs["accounting"] = ledger.as_dict()
+    return out

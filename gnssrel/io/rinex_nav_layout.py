@@ -12,6 +12,9 @@ RINEX 2.12 (Galileo, Table A16), RINEX 4.00 (section 5 and Tables A5-A35).
 
 from __future__ import annotations
 
+import math
+import re
+
 from gnssrel.errors import FileFormatError
 
 FIELD_WIDTH = 19
@@ -81,6 +84,16 @@ RECORD_FIELDS = {
 # Lines a record of each system may have (the epoch line included).
 RECORD_LINES = {"G": (8,), "J": (8,), "E": (8,), "C": (8,), "R": (4, 5), "S": (4,), "I": (8,)}
 
+
+def record_lines(version):
+    """Lines per record of each system in a file of ``version``: GLONASS records have
+    4 lines before RINEX 3.05 and 5 from 3.05 on (Table A11 adds BROADCAST ORBIT - 4).
+    Exact counts matter: a deleted line in a 5-line record must not pass as a 4-line one
+    (its fields would be read one line off)."""
+    out = dict(RECORD_LINES)
+    out["R"] = (5,) if version >= 3.05 - 1e-9 else (4,)
+    return out
+
 # GLONASS positions, velocities and accelerations are in km, km/s, km/s^2 in the file.
 KILOMETRE_FIELDS = frozenset(("x_m", "y_m", "z_m", "vx_m_per_s", "vy_m_per_s", "vz_m_per_s",
                               "ax_m_per_s2", "ay_m_per_s2", "az_m_per_s2"))
@@ -121,18 +134,32 @@ TIME_CORR2_COLUMNS = {"a0_s": (3, 22), "a1_s_per_s": (22, 41), "reference_sow_s"
 SUPPORTED_VERSIONS = ((2.0, 2.12), (3.0, 3.05), (4.0, 4.02))
 
 
+_STRICT_NUMBER = re.compile(r"^[+-]?(\d+\.?\d*|\.\d+)(E[+-]?\d+)?$")
+
+
 def _number(text, path, line_no, line, what):
-    text = text.strip().replace("D", "E").replace("d", "E")
+    text = text.strip().replace("D", "E").replace("d", "E").replace("e", "E")
     if not text:
         return None
-    try:
-        return float(text)
-    except ValueError:
-        raise FileFormatError(f"garbled number {text!r} in {what}", path, line_no, line) from None
+    if not _STRICT_NUMBER.match(text):  # Python's float() takes "1_0", "nan", "inf": refused
+        raise FileFormatError(f"garbled number {text!r} in {what}", path, line_no, line)
+    return float(text)
 
 
-def read_header(lines, path):
-    """Header values of a navigation file and the index of its first body line."""
+def read_header(lines, path, warn=None):
+    """Header values of a navigation file and the index of its first body line.
+
+    ``warn(message, line)`` receives the problems of optional lines (a garbled
+    IONOSPHERIC CORR, TIME SYSTEM CORR or LEAP SECONDS): such a line is skipped, the
+    rest of the file is read.  A LEAP SECONDS value that cannot be true (negative,
+    or far above the built-in table, :func:`gnssrel.timescales.check_leap_seconds`)
+    is refused with a warning and ``header["leap_seconds"]`` stays None (the table
+    is used).  Raises FileFormatError when the file is not a readable navigation
+    header (first line, version, kind, no END OF HEADER).
+    """
+    from gnssrel.timescales import check_leap_seconds
+
+    warn = warn or (lambda message, line: None)
     if not any(ln.strip() for ln in lines):
         raise FileFormatError("empty file: expected a RINEX navigation header", path, 1)
     first = lines[0]
@@ -164,56 +191,107 @@ def read_header(lines, path):
         label = line[60:80].strip()
         if label == "END OF HEADER":
             return header, i + 1
-        if label == "LEAP SECONDS" and line[0:6].strip():
-            value = _number(line[0:6], path, i + 1, line, "LEAP SECONDS (columns 1-6)")
-            header["leap_seconds"] = int(value)
-        elif label == "IONOSPHERIC CORR":
-            code = line[0:4].strip()
-            values = [_number(line[a:b], path, i + 1, line, f"IONOSPHERIC CORR (columns {a + 1}-{b})")
-                      for a, b in IONO3_COLUMNS]
-            values = [v for v in values if v is not None][:3 if code == "GAL" else 4]
-            header["ionosphere"].setdefault(code, values)
-        elif label in ("ION ALPHA", "ION BETA"):
-            values = [_number(line[a:b], path, i + 1, line, f"{label} (columns {a + 1}-{b})")
-                      for a, b in IONO2_COLUMNS]
-            values = [v for v in values if v is not None]
-            code = "GAL" if file_system == "E" else ("GPSA" if label == "ION ALPHA" else "GPSB")
-            header["ionosphere"].setdefault(code, values[:3] if code == "GAL" else values)
-        elif label in ("TIME SYSTEM CORR", "DELTA-UTC: A0,A1,T,W"):
-            table = TIME_CORR3_COLUMNS if label == "TIME SYSTEM CORR" else TIME_CORR2_COLUMNS
-            code = line[0:4].strip() if label == "TIME SYSTEM CORR" else \
-                {"G": "GPUT", "E": "GAUT"}.get(file_system, "UTC")
-            entry = {key: _number(line[a:b], path, i + 1, line, f"{label} (columns {a + 1}-{b})")
-                     for key, (a, b) in table.items()}
-            header["time_corrections"].setdefault(code, entry)
-        elif label == "CORR TO SYSTEM TIME":  # RINEX 2.11 GLONASS: -tau_c (Table A10)
-            value = _number(line[21:40], path, i + 1, line, "CORR TO SYSTEM TIME (columns 22-40)")
-            header["time_corrections"].setdefault("GLUT", {"a0_s": value})
+        try:
+            _header_line(header, label, line, i, path, file_system, check_leap_seconds, warn)
+        except FileFormatError as err:
+            warn(f"{err.message}; header line skipped", i + 1)
     raise FileFormatError("no END OF HEADER line (file truncated or not RINEX)", path,
                           len(lines), lines[-1])
+
+
+def _header_line(header, label, line, i, path, file_system, check_leap_seconds, warn):
+    if label == "LEAP SECONDS" and line[0:6].strip():
+        value = _number(line[0:6], path, i + 1, line, "LEAP SECONDS (columns 1-6)")
+        if value != int(value):
+            raise FileFormatError(f"LEAP SECONDS {value} is not a whole number", path, i + 1, line)
+        problem = check_leap_seconds(int(value))
+        if problem:
+            warn(f"{problem}: refused, the built-in leap-second table is used", i + 1)
+            header["leap_seconds_refused"] = int(value)
+            return
+        header["leap_seconds"] = int(value)
+        header["leap_seconds_line"] = i + 1
+    elif label == "IONOSPHERIC CORR":
+        code = line[0:4].strip()
+        values = [_number(line[a:b], path, i + 1, line, f"IONOSPHERIC CORR (columns {a + 1}-{b})")
+                  for a, b in IONO3_COLUMNS]
+        values = [v for v in values if v is not None][:3 if code == "GAL" else 4]
+        header["ionosphere"].setdefault(code, values)
+    elif label in ("ION ALPHA", "ION BETA"):
+        values = [_number(line[a:b], path, i + 1, line, f"{label} (columns {a + 1}-{b})")
+                  for a, b in IONO2_COLUMNS]
+        values = [v for v in values if v is not None]
+        code = "GAL" if file_system == "E" else ("GPSA" if label == "ION ALPHA" else "GPSB")
+        header["ionosphere"].setdefault(code, values[:3] if code == "GAL" else values)
+    elif label in ("TIME SYSTEM CORR", "DELTA-UTC: A0,A1,T,W"):
+        table = TIME_CORR3_COLUMNS if label == "TIME SYSTEM CORR" else TIME_CORR2_COLUMNS
+        code = line[0:4].strip() if label == "TIME SYSTEM CORR" else \
+            {"G": "GPUT", "E": "GAUT"}.get(file_system, "UTC")
+        entry = {key: _number(line[a:b], path, i + 1, line, f"{label} (columns {a + 1}-{b})")
+                 for key, (a, b) in table.items()}
+        header["time_corrections"].setdefault(code, entry)
+    elif label == "CORR TO SYSTEM TIME":  # RINEX 2.11 GLONASS: -tau_c (Table A10)
+        value = _number(line[21:40], path, i + 1, line, "CORR TO SYSTEM TIME (columns 22-40)")
+        header["time_corrections"].setdefault("GLUT", {"a0_s": value})
+
+
+# RINEX 4.00 ION records (section 5.3, Tables A32-A34; from memory): the message type
+# says which model the numbers belong to.  Klobuchar: GPS/QZSS LNAV and CNAV (CNVX),
+# BeiDou D1/D2 (D1D2), NavIC LNAV; NeQuick-G: Galileo I/NAV-F/NAV (IFNV).  BeiDou CNVX
+# is BDGIM (nine coefficients), which has no header key here: counted as not read.
+ION_MODELS = {("G", "LNAV"): "klobuchar", ("G", "CNVX"): "klobuchar",
+              ("J", "LNAV"): "klobuchar", ("J", "CNVX"): "klobuchar",
+              ("C", "D1D2"): "klobuchar", ("I", "LNAV"): "klobuchar",
+              ("E", "IFNV"): "nequick_g"}
 
 
 def ionosphere_from_records(lines, records, header, path):
     """Fill header["ionosphere"] from RINEX 4 ION records (first record of each kind).
 
+    ``records``: [(marker line index, n lines, system letter, message type)].
     RINEX 4.00 Tables A32-A34: the epoch line (4X, epoch, 3D19.12) then 4X,4D19.12 lines;
     Klobuchar alpha0-3, beta0-3, region; NeQuick-G ai0-ai2, disturbance flags.
+    Returns [(system, outcome, line, warning or None)] for the accounting: ``used``
+    (the first record of its kind, which fills the header), ``not read: ION <type>``
+    (a model without a header key, or a later record of a kind already read),
+    ``damaged`` (garbled number, too few values).
     """
     found = header.setdefault("ionosphere_records", [])
-    for start, count, letter in records:
+    outcomes = []
+    for start, count, letter, msg in records:
+        model = ION_MODELS.get((letter, msg))
+        system = "-"  # ION records belong to no satellite's table (counted apart, like STO/EOP)
+        if model is None:
+            outcomes.append((system, f"not read: ION {letter} {msg}", start + 1, None))
+            continue
+        if count <= 1:
+            outcomes.append((system, "not read: empty ION record", start + 1, None))
+            continue
         values = []
-        for k in range(1, count):
-            line_no = start + k
-            line = lines[line_no]
-            starts = FIELD_STARTS[3][0] if k == 1 else FIELD_STARTS[3][1]
-            for a in starts:
-                v = _number(line[a:a + FIELD_WIDTH], path, line_no + 1, line,
-                            f"ION record (columns {a + 1}-{a + FIELD_WIDTH})")
-                values.append(v)
+        try:
+            for k in range(1, count):
+                line = lines[start + k]
+                for a in (FIELD_STARTS[3][0] if k == 1 else FIELD_STARTS[3][1]):
+                    values.append(_number(line[a:a + FIELD_WIDTH], path, start + k + 1, line,
+                                          f"ION record (columns {a + 1}-{a + FIELD_WIDTH})"))
+        except FileFormatError as err:
+            outcomes.append((system, "damaged", start + 1, err.message))
+            continue
         codes = RINEX4_ION_CODES.get(letter, ())
+        need = 8 if model == "klobuchar" else 3
+        if len(values) < need or None in values[:need] or \
+                not all(math.isfinite(v) and abs(v) < 1e10 for v in values[:need]):
+            outcomes.append((system, "damaged", start + 1,
+                             f"ION {letter} {msg} record: {need} finite coefficients expected"))
+            continue
         found.append({"line": start + 1, "marker": lines[start].strip(), "values": values})
-        if len(codes) == 2 and len(values) >= 8 and None not in values[:8]:
-            header["ionosphere"].setdefault(codes[0], values[0:4])
-            header["ionosphere"].setdefault(codes[1], values[4:8])
-        elif len(codes) == 1 and len(values) >= 3 and None not in values[:3]:
-            header["ionosphere"].setdefault(codes[0], values[0:3])
+        if codes and codes[0] in header["ionosphere"]:
+            outcomes.append((system, "not read: later ION record of the same kind", start + 1, None))
+            continue
+        if model == "klobuchar":
+            header["ionosphere"][codes[0]] = values[0:4]
+            header["ionosphere"][codes[1]] = values[4:8]
+        else:
+            header["ionosphere"][codes[0]] = values[0:3]
+        outcomes.append((system, "used", start + 1, None))
+    return outcomes

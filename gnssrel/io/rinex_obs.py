@@ -16,11 +16,12 @@ import numpy as np
 import xarray as xr
 
 from gnssrel import timescales
+from gnssrel.accounting import NO_SYSTEM, Ledger
 from gnssrel.errors import GnssrelInputError
-from gnssrel.io.opening import read_bytes
+from gnssrel.io.opening import open_log
 from gnssrel.io.rinex_obs_fields import split_lines
 from gnssrel.io.rinex_obs_header import parse_obs_header
-from gnssrel.io.rinex_obs_scan import scan_v2, scan_v3
+from gnssrel.io.rinex_obs_scan import is_pseudorange, scan_v2, scan_v3
 
 SYSTEM_LETTERS = "GRECJSI"
 _LONG_NAME_SPAN = re.compile(r"_\d{11}_(\d{2})([MHDY])_")     # RINEX 3.05 appendix A1 file names
@@ -67,38 +68,148 @@ def read_observations(path, systems=None, start=None, end=None, observables=None
     sentences on header/body disagreements (TIME OF FIRST/LAST OBS, INTERVAL, the span a
     standard file name claims), skipped epochs, power failures (flag 1, data kept) and
     special records (flags 2-5, consumed).  Cycle-slip records (flag 6) are skipped.
+    ``accounting``: a :class:`gnssrel.accounting.Ledger` as a dict, with item ``epochs``
+    (system "-": every epoch record read, "used" = returned, dropped by reason: "damaged",
+    "cut by end of file", "event record" (flags 2-6), "repeated time", "outside the
+    requested time span", "no satellite of the requested systems", "lost in Hatanaka
+    decompression") and item ``observations`` per system (the pseudoranges, codes C* and
+    RINEX 2 P*, of the epochs kept: "used" = returned, dropped "system not requested",
+    "observable not requested", "SYS / SCALE FACTOR unreadable"), and the warnings naming
+    file and line.
 
     A damaged epoch in the body (including a last epoch cut short by the end of the
-    file) is skipped and counted; a bad header (empty file, unknown version, no END OF
-    HEADER, ...) raises :class:`gnssrel.errors.FileFormatError` naming the file and line.
+    file) is skipped and counted; an optional header line that cannot be read is left
+    aside with a warning; a bad header (empty file, unknown version, no END OF HEADER,
+    ...) raises :class:`gnssrel.errors.FileFormatError` naming the file and line.
     """
     letters = _parse_systems(systems)
     start = None if start is None else timescales.as_datetime64(start)
     end = None if end is None else timescales.as_datetime64(end)
     wanted_codes = _parse_observables(observables)
-    data = read_bytes(path)
+    ledger = Ledger()
+    opened = open_log(path, ledger)
+    data = opened.data
     hdr, offset = parse_obs_header(data, path)
-    lines = split_lines(data, offset, hdr["header_lines"] + 1)
-    del data
+    n_types = max([len(c) for c in hdr.get("fields", {}).values()] + [len(hdr.get("fields_v2", []))])
+    lines = split_lines(data, offset, hdr["header_lines"] + 1, pad=max(400, 16 * n_types + 64))
+    inserted = data.count(b"Some epochs are skipped by CRX2RNX") if opened.hatanaka_epochs is not None else 0
+    del data, opened.data
+    warnings: list[str] = []
+    for message, line in hdr["notes"]:
+        ledger.warn(message, path, line)
+        warnings.append(f"line {line}: {message}")
+    scan_letters = letters
+    if hdr["unscalable_systems"]:
+        scan_letters = (set(SYSTEM_LETTERS) if letters is None else letters) - hdr["unscalable_systems"]
 
     def to_gpst(t):
         return timescales.to_gpst(t, hdr["source_time_scale"], leap_seconds=hdr["leap_seconds"])
 
     if int(hdr["version"]) == 2:
-        scan = scan_v2(lines, hdr["fields_v2"], letters, start, end, to_gpst, with_flags)
+        scan = scan_v2(lines, hdr["fields_v2"], scan_letters, start, end, to_gpst, with_flags)
     else:
-        scan = scan_v3(lines, hdr["fields"], letters, start, end, to_gpst, with_flags)
-    warnings: list[str] = []
+        scan = scan_v3(lines, hdr["fields"], scan_letters, start, end, to_gpst, with_flags)
     keep_epoch = _order_epochs(scan, warnings)
+    keep_epoch, suspect = _drop_epoch_before_hatanaka_damage(scan, keep_epoch, opened, path, ledger, warnings)
     if int(hdr["version"]) == 2:
-        seen = sorted(set(np.unique(scan.record_sv.astype("U1")).tolist()) | _v2_letter(hdr))
-        fields = {s: list(hdr["fields_v2"]) for s in seen if letters is None or s in letters}
+        seen = sorted(set(np.unique(scan.record_sv.astype("U1")).tolist()) | _v2_letter(hdr)
+                      | set(np.unique(scan.skipped_letter).tolist()))
+        all_fields = {s: list(hdr["fields_v2"]) for s in seen}
     else:
-        fields = {s: c for s, c in hdr["fields"].items() if letters is None or s in letters}
+        all_fields = dict(hdr["fields"])
+    fields = {s: c for s, c in all_fields.items() if scan_letters is None or s in scan_letters}
     ds = _to_dataset(scan, keep_epoch, fields, hdr["scale_factors"], wanted_codes, with_flags)
     _header_body_checks(hdr, scan, Path(path).name, to_gpst, warnings)
+    _account_epochs(ledger, scan, keep_epoch, ds, opened, path, warnings, suspect, inserted)
+    _account_observations(ledger, scan, keep_epoch, all_fields, wanted_codes, hdr["unscalable_systems"])
     ds.attrs = _attrs(hdr, scan, Path(path).name, fields, to_gpst, warnings)
+    ds.attrs["accounting"] = ledger.as_dict()
     return ds
+
+
+def _drop_epoch_before_hatanaka_damage(scan, keep_epoch, opened, path, ledger, warnings):
+    """When the Hatanaka decompressor gave up on the rest of the file, its last written epoch
+    is not trusted (the damaged line sits in it or just after it): dropped and counted."""
+    if not opened.hatanaka_gave_up or scan.epoch_line.size == 0:
+        return keep_epoch, 0
+    last = int(np.argmax(scan.epoch_line))
+    if scan.damaged_lines and max(scan.damaged_lines) > scan.epoch_line[last] or last not in keep_epoch:
+        return keep_epoch, 0
+    line = int(scan.epoch_line[last])
+    sentence = ("the last epoch written by the Hatanaka decompressor before it gave up may hold values "
+                "of the wrong satellites; skipped")
+    ledger.warn(sentence, path, line)
+    warnings.append(f"{sentence} (line {line} of the expanded file)")
+    return keep_epoch[keep_epoch != last], 1
+
+
+def _account_epochs(ledger, scan, keep_epoch, ds, opened, path, warnings, suspect=0, inserted=0):
+    """Every epoch record: returned, or dropped with its reason (the item ``epochs``)."""
+    e = "epochs"
+    cut = 1 if scan.cut_line is not None else 0
+    lost = 0
+    if opened.hatanaka_epochs is not None:
+        # the decompressor adds one comment record (event flag 4) where it skipped epochs
+        lost = max(0, opened.hatanaka_epochs - (scan.n_epoch_records - inserted))
+    ledger.read(e, NO_SYSTEM, scan.n_epoch_records + lost)
+    ledger.used(e, NO_SYSTEM, ds.sizes["time"])
+    ledger.drop(e, NO_SYSTEM, "damaged", len(scan.damaged_lines) - cut)
+    ledger.drop(e, NO_SYSTEM, "cut by end of file", cut)
+    ledger.drop(e, NO_SYSTEM, "event record", scan.n_event_records)
+    ledger.drop(e, NO_SYSTEM, "outside the requested time span", scan.n_outside_window)
+    ledger.drop(e, NO_SYSTEM, "repeated time", scan.epoch_time.size - keep_epoch.size - suspect)
+    ledger.drop(e, NO_SYSTEM, "damaged in Hatanaka decompression", suspect)
+    ledger.drop(e, NO_SYSTEM, "no satellite of the requested systems", keep_epoch.size - ds.sizes["time"])
+    ledger.drop(e, NO_SYSTEM, "lost in Hatanaka decompression", lost)
+    for line in scan.damaged_lines:
+        if line != scan.cut_line:
+            ledger.warn("damaged epoch skipped", path, line)
+    if cut:
+        ledger.warn("the file ends inside this epoch (its last line is cut short): epoch skipped",
+                    path, scan.cut_line)
+    if lost:
+        sentence = (f"{lost} epoch(s) lost in Hatanaka decompression: the decompressor skipped them "
+                    "after a damaged line of the compressed file")
+        ledger.warn(sentence, path)
+        warnings.append(sentence)
+    if scan.missing_blank_lines:
+        sentence = (f"the last satellite of the last epoch lacks its last {scan.missing_blank_lines} data "
+                    "line(s) at the end of the file; read as blank (no value)")
+        ledger.warn(sentence, path)
+        warnings.append(sentence)
+    t = scan.epoch_time
+    if t.size - keep_epoch.size - suspect:
+        repeated = np.setdiff1d(np.arange(t.size), keep_epoch)
+        if suspect:  # the last epoch in file order, left aside above
+            repeated = repeated[repeated != int(np.argmax(scan.epoch_line))]
+        for line in scan.epoch_line[repeated][:_LISTED]:
+            ledger.warn("epoch repeats an earlier time; the first is kept", path, int(line))
+
+
+def _account_observations(ledger, scan, keep_epoch, all_fields, wanted_codes, unscalable):
+    """Pseudoranges of the kept epochs per system: returned, or dropped with the reason."""
+    item = "observations"
+    is_kept = np.zeros(scan.epoch_time.size, bool)
+    is_kept[keep_epoch] = True
+    rec = is_kept[scan.record_epoch]
+    letter = scan.record_sv.astype("U1")
+    values = scan.decoded.values
+    for s, codes in all_fields.items():
+        cols = [j for j, c in enumerate(codes) if is_pseudorange(c)]
+        mine = np.flatnonzero(rec & (letter == s))
+        if cols and mine.size:
+            present = ~np.isnan(values[np.ix_(mine, cols)])
+            kept_cols = np.array([wanted_codes is None or codes[j].startswith(wanted_codes) for j in cols])
+            n_used = int(present[:, kept_cols].sum())
+            ledger.read(item, s, int(present.sum()))
+            ledger.used(item, s, n_used)
+            ledger.drop(item, s, "observable not requested", int(present.sum()) - n_used)
+        skipped = (scan.skipped_letter == s) & (scan.skipped_epoch >= 0)
+        skipped[skipped] = is_kept[scan.skipped_epoch[skipped]]
+        n_skipped = int(scan.skipped_pseudoranges[skipped].sum())
+        ledger.read(item, s, n_skipped)
+        reason = "SYS / SCALE FACTOR unreadable" if s in unscalable else "system not requested"
+        ledger.drop(item, s, reason, n_skipped)
 
 
 def _parse_systems(systems):
@@ -219,9 +330,11 @@ def _header_body_checks(hdr, scan, name, to_gpst, warnings):
     if scan.damaged_lines:
         warnings.append(f"{len(scan.damaged_lines)} damaged epoch(s) skipped, at line(s) "
                         f"{_listing(scan.damaged_lines)}")
-    if not scan.ends_with_line_end:
-        warnings.append("the file does not end with a line end: its last line may be cut short, "
-                        "so its last epoch is skipped")
+    if scan.cut_line is not None:
+        warnings.append("the file does not end with a line end and its last line is cut short, "
+                        f"so its last epoch (line {scan.cut_line}) is skipped")
+    elif not scan.ends_with_line_end:
+        warnings.append("the file does not end with a line end; its last line is complete and was read")
     power = scan.epoch_time[scan.epoch_flag == 1]
     if power.size:
         warnings.append(f"power failure (event flag 1) before epoch(s) {_listing([_when(t) for t in power])} GPST; "
@@ -237,7 +350,7 @@ def _header_body_checks(hdr, scan, name, to_gpst, warnings):
                         "epoch are not observation records and were ignored")
     if scan.undeclared_systems:
         warnings.append(f"satellites of system(s) {''.join(sorted(scan.undeclared_systems))} have no "
-                        "SYS / # / OBS TYPES line in the header and were not read")
+                        "readable SYS / # / OBS TYPES line in the header and were not read")
 
 
 def _when(t) -> str:

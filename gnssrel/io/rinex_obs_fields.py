@@ -136,7 +136,10 @@ def decode_observation_fields(m: np.ndarray, n_used: np.ndarray, with_flags: boo
     chars = m[:, :, :14]
     blank = (chars == SPACE).all(axis=2)
     wanted = used & ~blank
-    bad_row = (~_VALUE_CHAR[chars].all(axis=2) & wanted).any(axis=1)
+    # F14.3: only digits, blanks, sign and point, and the point in the 11th column; anything
+    # else (NaN, INF, '_', a value shifted out of its columns) makes the record damaged.
+    misplaced = chars[:, :, 10] != ord(".")
+    bad_row = ((~_VALUE_CHAR[chars].all(axis=2) | misplaced) & wanted).any(axis=1)
     wanted &= ~bad_row[:, None]
     text = np.ascontiguousarray(chars).view("S14")[:, :, 0]
     values = np.full((n_rows, n_fields), np.nan)
@@ -173,6 +176,7 @@ def _is_number(s: bytes) -> bool:
 def sv_names(m3: np.ndarray, blank_system: str = "") -> tuple[np.ndarray, np.ndarray]:
     """Satellite names from (n, 3) byte rows like b'G05', b'G 5' or (RINEX 2) b' 5': (names 'U3', ok)."""
     m3 = m3.copy()
+    m3[m3 >= 128] = ord("?")  # a non-ASCII byte is no satellite (and must not reach the text decoding)
     if blank_system:
         m3[m3[:, 0] == SPACE, 0] = ord(blank_system)
     m3[m3[:, 1] == SPACE, 1] = ord("0")

@@ -14,6 +14,7 @@ from __future__ import annotations
 import numpy as np
 
 from gnssrel.errors import FileFormatError
+from gnssrel.timescales import check_leap_seconds
 
 LABEL = slice(60, 80)
 
@@ -21,6 +22,11 @@ LABEL = slice(60, 80)
 # IRNSS time is aligned to GPST (IRNSS SIS ICD 1.1, 4.2.1; from memory).
 FILE_TIME_SCALE = {"GPS": "GPST", "GAL": "GST", "GLO": "GLONASST", "BDT": "BDT",
                    "QZS": "QZSST", "IRN": "GPST"}
+
+# RINEX 2.11 table A1 "TIME OF FIRST OBS": "GLO (=UTC time system)", and 8.1.1: the time tags
+# of GLONASS observations are in UTC, not in GLONASS system time (UTC(SU) + 3 h).  So in a
+# RINEX 2 observation file the word GLO means UTC (published).
+FILE_TIME_SCALE_V2 = dict(FILE_TIME_SCALE, GLO="UTC")
 
 # RINEX 3.05 5.2.3: a file of one system writes its times in that system's scale;
 # RINEX 2.11 table A1: GPS or mixed files default to GPS, pure GLONASS files to GLO.
@@ -36,19 +42,42 @@ def _fail(message, path, index, lines):
 
 
 def _floats(text: str, count: int, width: int = 14):
-    """``count`` floats in fixed ``width`` columns; None when any is blank or not a number."""
-    try:
-        return [float(text[i * width:(i + 1) * width]) for i in range(count)]
-    except ValueError:
+    """``count`` Fw.d floats in fixed ``width`` columns; None when a field is blank or not a plain
+    decimal number (no '_', NaN, INF, exponent), or when the blank-separated numbers of columns
+    1-60 are not exactly these values (a shifted line: a digit moved into the next field).
+    Decimals are not checked: writers differ (F14.3 for F14.4, F11.4 for F10.3: common practice)."""
+    out = []
+    for i in range(count):
+        body = text[i * width:(i + 1) * width].strip()
+        if not _plain_decimal(body):
+            return None
+        out.append(float(body))
+    tokens = text[:60].split()
+    if len(tokens) != count or not all(_plain_decimal(t) and float(t) == v for t, v in zip(tokens, out)):
         return None
+    return out
+
+
+def _plain_decimal(text: str) -> bool:
+    digits = text.lstrip("+-").replace(".", "", 1)
+    return digits.isdigit() and digits.isascii() and len(text) - len(text.lstrip("+-")) <= 1
 
 
 def header_time(text: str) -> np.datetime64 | None:
-    """TIME OF FIRST/LAST OBS: 5I6, F13.7 (RINEX 3.05 table A2), as datetime64[ns] on the file's scale."""
-    try:
-        year, month, day, hour, minute = (int(text[i * 6:(i + 1) * 6]) for i in range(5))
-        seconds = float(text[30:43])
-    except ValueError:
+    """TIME OF FIRST/LAST OBS: 5I6, F13.7 (RINEX 3.05 table A2), as datetime64[ns] on the file's scale.
+
+    None unless every field is a right-aligned number in its columns (a shifted line is not
+    read) and the date exists (no 30 February) between 1980 and 2200.
+    """
+    fields = [text[i * 6:(i + 1) * 6] for i in range(5)]
+    if not all(f.strip().isdigit() and f.strip().isascii() and f[-1:] != " " for f in fields):
+        return None
+    seconds_text = text[30:43]
+    if not _plain_decimal(seconds_text.strip()) or seconds_text[-1:] == " ":
+        return None
+    year, month, day, hour, minute = (int(f) for f in fields)
+    seconds = float(seconds_text)
+    if not (1980 <= year <= 2200 and hour < 24 and minute < 60 and 0 <= seconds < 61):
         return None
     whole = int(seconds)
     nanos = round((seconds - whole) * 1e9)
@@ -91,7 +120,10 @@ def parse_obs_header(data: bytes, path) -> tuple[dict, int]:
     ``source_time_scale`` (gnssrel's name, e.g. "GPST", "GLONASST"), ``leap_seconds``
     (GPST - UTC from the header, or None), ``glonass_slots`` {"R01": channel},
     ``scale_factors`` {letter: {code: factor}}, ``receiver_clock_offset_applied``,
-    ``header_lines`` (count).
+    ``header_lines`` (count), ``notes`` [(message, line number)]: optional lines that could
+    not be read (misaligned, garbled, implausible) and were left aside, and
+    ``unscalable_systems`` (systems whose SYS / SCALE FACTOR line is unreadable: their
+    observations cannot be read without it).
     """
     lines, body_offset = split_header(data, path)
     first = lines[0]
@@ -113,7 +145,9 @@ def parse_obs_header(data: bytes, path) -> tuple[dict, int]:
                  "position": None, "antenna_delta_hen_m": None, "interval_s": None,
                  "time_of_first_obs": None, "time_of_last_obs": None, "file_time_scale": None,
                  "leap_seconds": None, "glonass_slots": {}, "scale_factors": {},
-                 "receiver_clock_offset_applied": None, "header_lines": len(lines)}
+                 "receiver_clock_offset_applied": None, "header_lines": len(lines), "notes": [],
+                 "unscalable_systems": set()}
+    notes = hdr["notes"]
     fields: dict[str, list[str]] = {}
     declared: dict[str, tuple[int, int]] = {}
     fields_v2: list[str] = []
@@ -132,24 +166,35 @@ def parse_obs_header(data: bytes, path) -> tuple[dict, int]:
                                "version": body[40:60].strip()}
         elif label == "ANT # / TYPE":
             hdr["antenna"] = {"number": body[:20].strip(), "type": body[20:40].strip()}
-        elif label == "APPROX POSITION XYZ" and hdr["position"] is None:
-            hdr["position"] = _floats(body, 3)
-        elif label == "ANTENNA: DELTA H/E/N":
-            hdr["antenna_delta_hen_m"] = _floats(body, 3)
-        elif label == "INTERVAL":
-            hdr["interval_s"] = _floats(body, 1, 10)[0] if _floats(body, 1, 10) else None
+        elif label in ("APPROX POSITION XYZ", "ANTENNA: DELTA H/E/N", "INTERVAL"):
+            # 3F14.4, 3F14.4, F10.3 (RINEX 3.05 table A2, RINEX 2.11 table A1)
+            key, count, width = {"APPROX POSITION XYZ": ("position", 3, 14),
+                                 "ANTENNA: DELTA H/E/N": ("antenna_delta_hen_m", 3, 14),
+                                 "INTERVAL": ("interval_s", 1, 10)}[label]
+            if key == "position" and hdr["position"] is not None:
+                continue
+            values = _floats(body, count, width)
+            if values is None:
+                notes.append((f"{label} is not {count if count > 1 else ''}F{width} numbers in "
+                              f"columns 1-{count * width}; line ignored", i + 1))
+            hdr[key] = values if values is None or count > 1 else values[0]
         elif label in ("TIME OF FIRST OBS", "TIME OF LAST OBS"):
+            # The body carries every epoch's own time: an unreadable line is left aside.
             key = "time_of_first_obs" if "FIRST" in label else "time_of_last_obs"
             hdr[key] = header_time(body)
             if hdr[key] is None:
-                _fail(f"{label}: expected 5I6,F13.7 date and time", path, i, lines)
-            if key == "time_of_first_obs" and body[48:51].strip():
-                hdr["file_time_scale"] = body[48:51].strip().upper()
+                notes.append((f"{label} is not 5I6,F13.7 date and time in columns 1-43; line ignored", i + 1))
+            if key == "time_of_first_obs":
+                hdr["file_time_scale"] = _time_system_word(body, notes, i + 1)
         elif label == "LEAP SECONDS":
-            try:
-                hdr["leap_seconds"] = int(body[:6])
-            except ValueError:
-                _fail("LEAP SECONDS: expected an integer in columns 1-6", path, i, lines)
+            leap = _strict_int(body[:6])
+            reason = "not an integer in columns 1-6" if leap is None else check_leap_seconds(leap)
+            if reason:
+                notes.append((f"LEAP SECONDS {body[:6].strip()!r}: {reason}; the built-in table is used",
+                              i + 1))
+            else:
+                hdr["leap_seconds"] = leap
+                hdr["leap_seconds_line"] = i + 1
         elif label == "RCV CLOCK OFFS APPL":
             hdr["receiver_clock_offset_applied"] = body[:6].strip() == "1"
         elif label == "GLONASS SLOT / FRQ #":
@@ -179,6 +224,10 @@ def parse_obs_header(data: bytes, path) -> tuple[dict, int]:
             fields_v2 += body[6:60].split()
         elif label == "SYS / SCALE FACTOR":
             last_scale = _scale_factor(hdr, body, path, i, lines, last_scale)
+        elif label and label not in KNOWN_LABELS:
+            shifted = _shifted_label(line)
+            if shifted:
+                notes.append((f"header label {shifted!r} is not in columns 61-80; line ignored", i + 1))
 
     if int(version) == 2:
         if v2_declared is None:
@@ -192,17 +241,74 @@ def parse_obs_header(data: bytes, path) -> tuple[dict, int]:
             _fail("no 'SYS / # / OBS TYPES' line in the header", path, len(lines) - 1, lines)
         for letter, (count, line_index) in declared.items():
             if count != len(fields[letter]):
-                _fail(f"SYS / # / OBS TYPES for {letter} declares {count} types but lists "
-                      f"{len(fields[letter])}", path, line_index, lines)
+                # The types of this system are unknown: its records cannot be read, the others can.
+                notes.append((f"SYS / # / OBS TYPES for {letter} declares {count} types but lists "
+                              f"{len(fields[letter])}; the satellites of {letter} cannot be read",
+                              line_index + 1))
+                del fields[letter]
+        if not fields:
+            _fail("no readable 'SYS / # / OBS TYPES' line in the header", path, len(lines) - 1, lines)
         hdr["fields"] = fields
 
+    if hdr["leap_seconds"] is not None and hdr["time_of_first_obs"] is not None:
+        # Within a second or so of GPST whatever the file's scale: enough to pick the table's value.
+        reason = check_leap_seconds(hdr["leap_seconds"], near_gpst=hdr["time_of_first_obs"])
+        if reason:
+            notes.append((f"{reason}; the built-in table is used", hdr.pop("leap_seconds_line")))
+            hdr["leap_seconds"] = None
+    hdr.pop("leap_seconds_line", None)
     word = hdr["file_time_scale"] or DEFAULT_TIME_SCALE.get(file_system, "GPS")
     if word not in FILE_TIME_SCALE:
         raise FileFormatError(f"unknown time system {word!r} in TIME OF FIRST OBS "
                               f"(known: {', '.join(FILE_TIME_SCALE)})", path)
     hdr["file_time_scale"] = word
-    hdr["source_time_scale"] = FILE_TIME_SCALE[word]
+    hdr["source_time_scale"] = (FILE_TIME_SCALE_V2 if int(version) == 2 else FILE_TIME_SCALE)[word]
     return hdr, body_offset
+
+
+KNOWN_LABELS = frozenset((
+    "RINEX VERSION / TYPE", "PGM / RUN BY / DATE", "COMMENT", "MARKER NAME", "MARKER NUMBER",
+    "MARKER TYPE", "OBSERVER / AGENCY", "REC # / TYPE / VERS", "ANT # / TYPE", "APPROX POSITION XYZ",
+    "ANTENNA: DELTA H/E/N", "ANTENNA: DELTA X/Y/Z", "ANTENNA: PHASECENTER", "ANTENNA: B.SIGHT XYZ",
+    "ANTENNA: ZERODIR AZI", "ANTENNA: ZERODIR XYZ", "CENTER OF MASS: XYZ", "DOI", "LICENSE OF USE",
+    "STATION INFORMATION", "SYS / # / OBS TYPES", "SIGNAL STRENGTH UNIT", "INTERVAL", "TIME OF FIRST OBS",
+    "TIME OF LAST OBS", "RCV CLOCK OFFS APPL", "SYS / DCBS APPLIED", "SYS / PCVS APPLIED",
+    "SYS / SCALE FACTOR", "SYS / PHASE SHIFT", "GLONASS SLOT / FRQ #", "GLONASS COD/PHS/BIS",
+    "LEAP SECONDS", "# OF SATELLITES", "PRN / # OF OBS", "END OF HEADER", "WAVELENGTH FACT L1/2",
+    "# / TYPES OF OBSERV", "DELTA-UTC: A0,A1,T,W", "ION ALPHA", "ION BETA", "CORR TO SYSTEM TIME"))
+
+
+def _time_system_word(body: str, notes: list, line_number: int) -> str | None:
+    """The time system of TIME OF FIRST OBS (columns 49-51), or None when blank (the default applies).
+
+    A known word found a column or two away (a shifted line) is taken, with a note: the word
+    is unambiguous.  An unknown word is returned as it is, and refused by the caller.
+    """
+    word = body[48:51].strip().upper()
+    if word in FILE_TIME_SCALE:
+        return word
+    known = [t for t in body[43:60].upper().split() if t in FILE_TIME_SCALE]
+    if len(known) == 1:
+        notes.append((f"TIME OF FIRST OBS: time system {known[0]} is not in columns 49-51; taken "
+                      "from where it stands", line_number))
+        return known[0]
+    return word or None
+
+
+def _shifted_label(line: str) -> str | None:
+    """A known label that sits a few columns away from 61-80 (a misaligned line), or None."""
+    tail = line[50:].strip()
+    for label in KNOWN_LABELS:
+        if tail.endswith(label) or tail.startswith(label):
+            return label
+    return None
+
+
+def _strict_int(text: str) -> int | None:
+    """A right-aligned I-format integer (blanks, optional sign, digits only), or None."""
+    t = text.strip()
+    digits = t[1:] if t[:1] in "+-" else t
+    return int(t) if digits.isdigit() and digits.isascii() else None
 
 
 def _scale_factor(hdr, body, path, i, lines, last):
@@ -214,10 +320,16 @@ def _scale_factor(hdr, body, path, i, lines, last):
         letter, factor = last
     else:
         letter = body[0].upper()
-        try:
-            factor = int(body[2:6])
-        except ValueError:
-            _fail("SYS / SCALE FACTOR: factor (columns 3-6) is not an integer", path, i, lines)
+        factor = _strict_int(body[2:6])
+        if factor not in (1, 10, 100, 1000):  # RINEX 3.05 table A2: 1, 10, 100 or 1000
+            if letter not in "GRECJSI":
+                _fail("SYS / SCALE FACTOR: neither system (column 1) nor factor (columns 3-6) "
+                      "can be read", path, i, lines)
+            hdr["notes"].append((f"SYS / SCALE FACTOR of {letter}: factor {body[2:6].strip()!r} "
+                                 "(columns 3-6) is not 1, 10, 100 or 1000; the observations of "
+                                 f"system {letter} cannot be read without it", i + 1))
+            hdr["unscalable_systems"].add(letter)
+            return letter, 1
     codes = body[10:60].split()
     per_sys = hdr["scale_factors"].setdefault(letter, {})
     for code in codes:

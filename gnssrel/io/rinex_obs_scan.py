@@ -23,6 +23,7 @@ import bisect
 from dataclasses import dataclass, field
 
 import numpy as np
+from numpy.lib.stride_tricks import sliding_window_view
 
 from gnssrel.io.rinex_obs_fields import (
     DecodedFields,
@@ -51,8 +52,17 @@ class Scan:
     event_counts: dict = field(default_factory=dict)    # flag -> number of epoch records
     special_lines: list = field(default_factory=list)   # (line, flag) of flag 2-5 records
     undeclared_systems: set = field(default_factory=set)
-    ends_with_line_end: bool = True     # False: the last line may be cut, its epoch is skipped
+    ends_with_line_end: bool = True     # False: the file's last line has no line end
+    cut_line: int | None = None         # line number of the last epoch when its last line is cut short
     lines_before_first_epoch: int = 0  # non-blank lines between header and first epoch (ignored)
+    n_epoch_records: int = 0            # every epoch record found, damaged and special ones included
+    n_event_records: int = 0            # flag 2-6 records (consumed, not data)
+    n_outside_window: int = 0           # data epochs outside start/end
+    # Records of declared systems not requested: not decoded, only their pseudoranges counted.
+    skipped_epoch: np.ndarray | None = None   # int: index into the epoch arrays, -1 = epoch not kept
+    skipped_letter: np.ndarray | None = None  # 'U1'
+    skipped_pseudoranges: np.ndarray | None = None  # int: non-blank pseudorange fields of the record
+    missing_blank_lines: int = 0        # RINEX 2: last satellite's lines absent at the end (read blank)
 
 
 def _record_index(first_line, counts):
@@ -69,6 +79,37 @@ def _strip_trailing_blank(lines: Lines) -> int:
     return int(nonblank[-1]) + 1 if nonblank.size else 0
 
 
+def _last_line_cut(lines: Lines, v3: bool) -> bool:
+    """Is the file's last line (when it has no line end) shorter than its record needs?
+
+    A line may legitimately end early (trailing blank fields are left out), so only a
+    line that ends inside an F14.3 value (RINEX 3.05 table A13, RINEX 2.11 table A2:
+    value in the first 14 of 16 columns), or a RINEX 3 epoch line shorter than its
+    35 fixed columns, is taken as cut.  A line without line end that is complete is read.
+    """
+    if lines.complete or len(lines) == 0:
+        return False
+    text = lines.text(len(lines) - 1).rstrip()
+    if not text:
+        return False
+    if v3 and text.startswith(">"):
+        return len(text) < 35
+    if v3 and len(text) < 3:
+        return True
+    rest = (len(text) - (3 if v3 else 0)) % 16
+    return 1 <= rest <= 13
+
+
+def _with_blank_lines(lines: Lines, k: int) -> Lines:
+    """``lines`` with ``k`` empty lines appended (the lines a record needs beyond the file's end)."""
+    if k <= 0:
+        return lines
+    end = np.full(k, lines.raw.size - lines.pad, dtype=np.int64)
+    return Lines(lines.raw, np.concatenate((lines.starts, end)),
+                 np.concatenate((lines.lengths, np.zeros(k, np.int64))),
+                 lines.first_line_number, lines.complete, lines.pad)
+
+
 def _in_window(t_gpst, start, end):
     keep = np.ones(t_gpst.shape, dtype=bool)
     if start is not None:
@@ -78,9 +119,25 @@ def _in_window(t_gpst, start, end):
     return keep
 
 
+def nonblank_fields(lines: Lines, line_index: np.ndarray, offset: np.ndarray) -> np.ndarray:
+    """How many of the 14-column value fields at (``line_index``, ``offset``), both (n, k),
+    hold something: int (n,), vectorized."""
+    line_index = np.asarray(line_index, dtype=np.int64)
+    if line_index.size == 0:
+        return np.zeros(line_index.shape[0], np.int64)
+    windows = sliding_window_view(lines.raw, 14)
+    m = windows[np.minimum(lines.starts[line_index] + offset, windows.shape[0] - 1)]   # (n, k, 14)
+    inside = np.arange(14) < (lines.lengths[line_index] - offset)[..., None]
+    return ((m != 32) & inside).any(axis=2).sum(axis=1)
+
+
 def _finish(lines, epoch_idx, flag, t_gpst, data_ok, damaged, rec_owner, names, rec_m, n_used,
-            with_flags, special):
-    """Shared tail of both scanners: decode fields, drop damaged epochs, build the Scan."""
+            with_flags, special, skipped=None):
+    """Shared tail of both scanners: decode fields, drop damaged epochs, build the Scan.
+
+    ``skipped``: (epoch index, letter, pseudorange count) of the records of systems not
+    requested, renumbered here like the kept records.
+    """
     decoded = decode_observation_fields(rec_m, n_used, with_flags)
     bad_owner = np.unique(rec_owner[decoded.bad_row])
     damaged[bad_owner] = True
@@ -93,7 +150,11 @@ def _finish(lines, epoch_idx, flag, t_gpst, data_ok, damaged, rec_owner, names, 
     sel = np.flatnonzero(keep_rec)
     decoded = DecodedFields(decoded.values[sel], None if decoded.lli is None else decoded.lli[sel],
                             None if decoded.ssi is None else decoded.ssi[sel], decoded.bad_row[sel])
-    return Scan(ends_with_line_end=lines.complete, epoch_time=t_gpst[kept], epoch_flag=flag[kept],
+    if skipped is None:
+        skipped = (np.zeros(0, np.int64), np.zeros(0, "U1"), np.zeros(0, np.int64))
+    return Scan(skipped_epoch=new_index[skipped[0]], skipped_letter=skipped[1],
+                skipped_pseudoranges=skipped[2], ends_with_line_end=lines.complete,
+                epoch_time=t_gpst[kept], epoch_flag=flag[kept],
                 epoch_line=lines.numbers(epoch_idx[kept]), record_epoch=new_index[rec_owner[sel]],
                 record_sv=names[sel], decoded=decoded, all_data_times=np.array([]),
                 damaged_lines=lines.numbers(epoch_idx[damaged]).tolist(),
@@ -126,12 +187,15 @@ def scan_v3(lines: Lines, fields: dict, letters, start, end, to_gpst, with_flags
     special = structural & (flag >= 2) & (flag <= 5)
     slip = structural & (flag == 6)
     damaged = ~(data | special | slip)
-    if not lines.complete and epoch_idx.size:
+    cut = _last_line_cut(lines, v3=True) and epoch_idx.size > 0
+    if cut:
         damaged[-1] = True  # the last line was cut short
-        data[-1] = False
+        data[-1] = special[-1] = slip[-1] = False
     t_gpst = to_gpst(t_file)
     all_data_times = t_file[data]
-    data &= _in_window(t_gpst, start, end)
+    in_window = _in_window(t_gpst, start, end)
+    n_outside = int(np.count_nonzero(data & ~in_window))
+    data &= in_window
 
     # Satellite records of the data epochs in the window.
     rec_lines, rec_owner = _record_index(epoch_idx[data] + 1, count[data])
@@ -142,8 +206,13 @@ def scan_v3(lines: Lines, fields: dict, letters, start, end, to_gpst, with_flags
     declared = np.isin(rec_letter, letter)
     undeclared = set(np.unique(rec_letter[name_ok & ~declared]).tolist())
     wanted = declared if letters is None else declared & np.isin(rec_letter, list(letters))
-    # Records of undeclared or unwanted systems are not decoded; bad names damage their epoch.
+    # Records of undeclared systems are not decoded (no types to decode them with); those of
+    # systems not requested only have their pseudoranges counted.  Bad names damage their epoch.
     damaged[np.unique(rec_owner[~name_ok])] = True
+    other = declared & name_ok & ~wanted
+    other_lines = rec_lines[other]
+    skipped = _count_skipped(rec_owner[other], rec_letter[other], lambda sel, js: nonblank_fields(
+        lines, np.repeat(other_lines[sel, None], js.size, axis=1), 3 + 16 * js), fields)
     take = wanted & name_ok
     rec_lines, rec_owner, names = rec_lines[take], rec_owner[take], names[take]
     n_types = {s: len(codes) for s, codes in fields.items()}
@@ -152,8 +221,12 @@ def scan_v3(lines: Lines, fields: dict, letters, start, end, to_gpst, with_flags
     n_max = max([n_types[s] for s in fields if letters is None or s in letters] or [0])
     m = columns(lines, rec_lines, 3 + 16 * n_max)[:, 3:].reshape(names.size, n_max, 16)
     scan = _finish(lines, epoch_idx, flag, t_gpst, data, damaged, rec_owner, names, m, n_used,
-                   with_flags, special)
+                   with_flags, special, skipped)
     scan.damaged_lines = sorted(scan.damaged_lines + extra_damage)
+    scan.n_epoch_records = int(epoch_idx.size + len(extra_damage))
+    scan.n_event_records = int(np.count_nonzero((special | slip) & ~damaged))
+    scan.n_outside_window = n_outside
+    scan.cut_line = int(lines.numbers(epoch_idx[-1])) if cut else None
     scan.all_data_times = all_data_times
     scan.undeclared_systems = undeclared
     scan.lines_before_first_epoch = _nonblank_before(lines, epoch_idx[0] if epoch_idx.size else n)
@@ -189,7 +262,15 @@ def scan_v2(lines: Lines, codes: list, letters, start, end, to_gpst, with_flags)
     is_obs = flag <= 1
     n_cont = np.where((flag <= 1) | (flag == 6), np.maximum(-(-count // 12) - 1, 0), 0)
     length = 1 + np.where((flag <= 1) | (flag == 6), n_cont + count * n_per_sat, count)
-    starts, damaged_starts = _v2_chain(cand, length, n, lines.complete)
+    cut = _last_line_cut(lines, v3=False)
+    # Blank data lines at the end of the last satellite are allowed (RINEX 2.11 table A2: a
+    # satellite takes ceil(n_types / 5) lines, blank where it has no value): the record may end
+    # among the trailing blank lines, or even past the file's last line, by up to the last
+    # satellite's own lines after its first (those are then read as blank, with a warning).
+    avail = len(lines) + max(n_per_sat - 1, 0)
+    starts, damaged_starts = _v2_chain(cand, length, n, avail, cut, is_obs)
+    missing = max(0, (int(starts[-1] + length[starts[-1]]) if starts else 0) - len(lines))
+    lines = _with_blank_lines(lines, missing)
     epoch_idx = np.array(sorted(starts + damaged_starts), dtype=np.int64)
     damaged = np.isin(epoch_idx, damaged_starts)
     f, c, k = flag[epoch_idx], count[epoch_idx], n_cont[epoch_idx]
@@ -198,7 +279,9 @@ def scan_v2(lines: Lines, codes: list, letters, start, end, to_gpst, with_flags)
     tf = t_file[epoch_idx]
     t_gpst = to_gpst(tf)
     all_data_times = tf[data]
-    data &= _in_window(t_gpst, start, end)
+    in_window = _in_window(t_gpst, start, end)
+    n_outside = int(np.count_nonzero(data & ~in_window))
+    data &= in_window
 
     # Satellite lists: epoch line plus continuation lines, 12 names of 3 characters from column 33.
     d = np.flatnonzero(data)
@@ -211,34 +294,72 @@ def scan_v2(lines: Lines, codes: list, letters, start, end, to_gpst, with_flags)
     rec_no = slot_no[used]  # position of the satellite in its epoch's list
     first_data_line = epoch_idx[rec_owner] + 1 + k[rec_owner] + rec_no * n_per_sat
     damaged[np.unique(rec_owner[~name_ok])] = True
-    take = name_ok if letters is None else name_ok & np.isin(names.astype("U1"), list(letters))
+    letter = names.astype("U1")
+    other = name_ok if letters is None else name_ok & ~np.isin(letter, list(letters))
+    if letters is None:
+        other = np.zeros(names.size, bool)
+    other_first = first_data_line[other]
+    skipped = _count_skipped(rec_owner[other], letter[other], lambda sel, js: nonblank_fields(
+        lines, other_first[sel, None] + js // 5, 16 * (js % 5)), {s: codes for s in set(letter)})
+    take = name_ok & ~other
     names, rec_owner, first_data_line = names[take], rec_owner[take], first_data_line[take]
     data_lines = (first_data_line[:, None] + np.arange(n_per_sat)[None, :]).ravel()
-    m = columns(lines, data_lines, 80).reshape(names.size, n_per_sat * 80)
-    m = m.reshape(names.size, n_per_sat * 5, 16)[:, :len(codes)]
+    m = columns(lines, data_lines, 80).reshape(names.size, n_per_sat * 5, 16)
+    # A satellite's last line holds only its remaining types: anything beyond them means the
+    # lines are out of place (a line moved or lost), so the epoch is damaged.
+    overfull = (m[:, len(codes):] != 32).any(axis=(1, 2))
+    damaged[np.unique(rec_owner[overfull])] = True
+    m = m[:, :len(codes)]
     n_used = np.full(names.size, len(codes), dtype=np.int64)
     scan = _finish(lines, epoch_idx, f, t_gpst, data, damaged, rec_owner, names, m, n_used,
-                   with_flags, special)
+                   with_flags, special, skipped)
     scan.all_data_times = all_data_times
+    scan.n_epoch_records = int(epoch_idx.size)
+    scan.n_event_records = int(np.count_nonzero(~damaged & (f >= 2) & (f <= 6)))
+    scan.n_outside_window = n_outside
+    scan.missing_blank_lines = missing
+    if cut and damaged_starts and max(damaged_starts) == epoch_idx[-1]:
+        scan.cut_line = int(lines.numbers(epoch_idx[-1]))
     scan.lines_before_first_epoch = _nonblank_before(lines, cand[0] if cand.size else n)
     return scan
+
+
+def is_pseudorange(code: str) -> bool:
+    """RINEX 3.05 5.1 / 4.00: C = code (pseudorange); RINEX 2.11 table A1: C1..C8, P1, P2."""
+    return code[:1] == "C" or code[:1] == "P" and len(code) == 2
+
+
+def _count_skipped(owner, letter, nonblank, fields):
+    """(owner, letter, pseudorange count) of records not decoded; ``nonblank(sel, js)`` counts
+    the fields ``js`` (a list of type positions) of the records ``sel`` that hold a value."""
+    count = np.zeros(owner.size, np.int64)
+    for s in np.unique(letter):
+        sel = np.flatnonzero(letter == s)
+        js = np.array([j for j, code in enumerate(fields.get(s, ())) if is_pseudorange(code)], np.int64)
+        if js.size:
+            count[sel] = nonblank(sel, js)
+    return owner, letter, count
 
 
 def _nonblank_before(lines: Lines, stop: int) -> int:
     return int(np.count_nonzero(lines.lengths[:stop]))
 
 
-def _v2_chain(cand: np.ndarray, length: np.ndarray, n: int, complete: bool):
+def _v2_chain(cand: np.ndarray, length: np.ndarray, n: int, avail: int, cut: bool, is_obs: np.ndarray):
     """Follow the epoch records from the first candidate line: (good starts, damaged starts).
 
-    A record is damaged when another epoch line falls inside it or it runs past the end of
-    the file; a line where an epoch should start but that is none is a damaged epoch line.
-    Fast path: when every record ends where the next candidate starts, no loop is needed.
+    ``n``: lines up to the last non-blank one; ``avail``: lines a record may reach (trailing
+    blank lines, and the last satellite's lines the file may leave out).  A record is damaged
+    when another epoch line falls inside it, it runs past ``avail``, or it holds the file's
+    last line and that line is cut short; a line where an epoch should start but that is
+    none is a damaged epoch line.  Fast path: when every record ends where the next
+    candidate starts, no loop is needed.
     """
     if cand.size == 0:
         return [], []
     ends = cand + length[cand]
-    if np.array_equal(ends[:-1], cand[1:]) and ends[-1] == n and complete:
+    if np.array_equal(ends[:-1], cand[1:]) and n <= ends[-1] <= avail and not cut \
+            and (ends[-1] <= n or is_obs[cand[-1]]):
         return cand.tolist(), []
     good, bad = [], []
     cand_list = cand.tolist()
@@ -251,7 +372,9 @@ def _v2_chain(cand: np.ndarray, length: np.ndarray, n: int, complete: bool):
             pos = next_cand
             continue
         end = pos + int(length[pos])
-        if end > n or next_cand < end or (end == n and not complete):
+        blocked = j < len(cand_list) and cand_list[j] < end  # another epoch line inside the record
+        past = end > n and not (end <= avail and is_obs[pos])
+        if past or blocked or (end >= n and cut):
             bad.append(pos)
             pos = next_cand
             continue

@@ -1,7 +1,9 @@
 """Write tables and summaries atomically: a failed run never leaves a half-written file.
 
 Every output goes to a temporary file beside the target and is renamed over it
-only when complete (``os.replace`` is atomic on one file system).
+only when complete (``os.replace`` is atomic on one file system).  The finished
+file gets the permissions a plainly created file would get (the umask's, or the
+replaced file's own), not the temporary file's owner-only ones.
 """
 
 from __future__ import annotations
@@ -30,11 +32,24 @@ def atomic_path(path: str | Path):
     os.close(fd)
     try:
         yield Path(tmp)
+        os.chmod(tmp, output_mode(path))    # mkstemp makes it owner-only; outputs follow the umask
         os.replace(tmp, path)
     except BaseException:
         if os.path.exists(tmp):
             os.unlink(tmp)
         raise
+
+
+def output_mode(path: str | Path) -> int:
+    """The permissions an output gets: an existing file's own, else 0666 less the umask
+    (as any program creating a file gets them: 0644 under the usual umask 022)."""
+    try:
+        return os.stat(path).st_mode & 0o7777
+    except OSError:
+        pass
+    umask = os.umask(0)
+    os.umask(umask)
+    return 0o666 & ~umask
 
 
 def check_output_suffix(path: str | Path, allowed=TABLE_SUFFIXES) -> Path:

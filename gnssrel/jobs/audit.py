@@ -10,7 +10,7 @@ import logging
 
 import numpy as np
 
-from gnssrel.errors import GnssrelInputError
+from gnssrel.errors import GnssrelInputError, NoDataError
 from gnssrel.jobs import common
 
 HELP = "audit a receiver log: corrections per observation, positions, the periodic-term fit"
@@ -46,6 +46,7 @@ def add_arguments(parser) -> None:
                         help="elevation mask in degrees (default 10)")
     parser.add_argument("--weighting", choices=("elevation", "equal"), default="elevation",
                         help="least-squares weights of the fixes: 1/(1 + 1/sin^2 el) (default) or equal")
+    common.add_rule(parser)
     common.add_outputs(parser, "per-observation corrections table (.csv, .parquet or .nc)")
     parser.add_argument("--positions", metavar="FILE",
                         help="per-epoch positions and 3-D errors table (.csv, .parquet or .nc)")
@@ -62,19 +63,79 @@ def _parse_position(text: str):
 
 
 def _decimate(obs_ds, step_s):
+    from gnssrel.jobs.accounting import decimate_observations
+
     if not step_s:
         return obs_ds
     t = obs_ds["time"].values.astype("datetime64[ns]").astype("int64")
     keep = np.mod(t, round(step_s * 1e9)) == 0
     if not keep.any():
         raise GnssrelInputError(f"--step {step_s}: no epoch falls on a multiple of {step_s} s")
-    return obs_ds.isel(time=np.flatnonzero(keep))
+    return decimate_observations(obs_ds, keep)
+
+
+def _counted_precise(precise):
+    """The precise products for the accounting: the clocks apart only when clock files gave them."""
+    if precise is None:
+        return None
+    return {"orbits": precise["orbits"], "clocks": precise["clocks"] if precise.get("clock_files") else None}
+
+
+def check_log_against_navigation(obs_ds, nav, systems, path) -> None:
+    """Refuse a log whose epochs lie wholly outside the navigation records' reach (exit 2, both spans)."""
+    t = np.asarray(obs_ds["time"].values).astype("datetime64[ns]")
+    if t.size == 0:
+        return
+    nav_start, nav_end = common.navigation_span(nav, systems)
+    reach = np.timedelta64(4, "h")          # the widest validity half-window of a broadcast record
+    if t.max() < nav_start - reach or t.min() > nav_end + reach:
+        raise NoDataError(f"no overlap: the log's epochs span {common.fmt_span(t.min(), t.max())}, the "
+                          f"navigation records {common.describe_navigation_span(nav, systems)}", path)
+
+
+NO_STATE_REASONS = ("no navigation record", "no satellite state", "no precise orbit")
+MISSING_STATE_WARNING = 0.10
+"""A log whose pseudoranges lack a satellite state beyond this share gets a warning even when
+positions could be solved."""
+BENIGN_DROPS = ("system not requested", "system not audited", "another signal chosen (one code or pair per system)",
+                "epoch without a position (too few satellites)", "not on the --step grid")
+"""Drops that are a choice or a consequence, not the cause of an audit without positions."""
+
+
+def check_something_computed(summary, ledger, path, nav, systems, obs_ds) -> str | None:
+    """Why no position could be solved (None when some were); exit 2 when neither a position nor a
+    determined k could be computed, naming the real cause from the accounting."""
+    drops = ledger.dropped("observations")
+    candidates = sum(ledger.count("observations", s) - sum(n for r, n in ledger.dropped("observations", s).items()
+                                                           if r in BENIGN_DROPS[:3]) for s in systems)
+    if summary["position"].get("n_epochs_solved", 1) and summary["position"]["median_error_3d_m"] is not None:
+        missing = sum(n for r, n in drops.items() if r.startswith(NO_STATE_REASONS))
+        if candidates and missing > MISSING_STATE_WARNING * candidates:   # computed, but say what is missing
+            log.warning("%s: %d of %d pseudoranges of %s have no satellite state (%s): are the navigation "
+                        "files of this station and day?", path, missing, candidates, "".join(systems),
+                        ", ".join(f"{n} {r}" for r, n in drops.items() if r.startswith(NO_STATE_REASONS)))
+        return None
+    causes = sorted(((r, n) for r, n in drops.items() if r not in BENIGN_DROPS), key=lambda kv: -kv[1])[:3]
+    text = "no epoch could be solved for a position"
+    if causes:
+        text += ": " + "; ".join(f"{n} of {candidates} pseudoranges of {''.join(systems)}: {r}" for r, n in causes)
+    t = np.asarray(obs_ds["time"].values)
+    n_sat = sum(len(nav.ephemerides[s]["sv"].unique()) for s in systems if s in nav.ephemerides)
+    if t.size:
+        text += (f" (the log spans {common.fmt_span(t.min(), t.max())}; the navigation records, "
+                 f"{n_sat} satellites of {''.join(systems)}, {common.describe_navigation_span(nav, systems)})")
+    determined = any(not str(f.get("status", "undetermined")).startswith("undetermined") and f.get("k") is not None
+                     for f in summary["relativity_k"].values())
+    if not determined:
+        raise NoDataError(text, path)
+    return text
 
 
 def read_precise(paths, systems=None) -> dict:
     """``{"orbits": SP3 Dataset, "clocks": Dataset with clock_s}`` from SP3 files and optional
     RINEX clock files (told apart by content); the clock files' clocks win over the SP3's."""
     from gnssrel.io.sp3 import read_sp3
+    from gnssrel.jobs.accounting import unique_keys
     from gnssrel.jobs.clocks import precise_kind, read_precise_clocks
 
     kinds = {p: precise_kind(p) for p in paths}
@@ -83,15 +144,16 @@ def read_precise(paths, systems=None) -> dict:
     if not sp3_paths:
         raise GnssrelInputError("--precise: give at least one SP3 file (the orbits); RINEX clock "
                                 "files only add clocks")
-    orbits = read_sp3(sp3_paths, systems=systems)
+    orbits = unique_keys(read_sp3(sp3_paths, systems=systems), "sp3_records", "position_ecef_m")
     clocks = read_precise_clocks(clk_paths, systems)[0] if clk_paths else orbits[["clock_s"]]
-    return {"orbits": orbits, "clocks": clocks}
+    return {"orbits": orbits, "clocks": clocks, "clock_files": bool(clk_paths)}
 
 
 def run(args) -> dict:
     from gnssrel import read_observations
     from gnssrel.audit.summary import audit_log, audit_summary, per_epoch_errors
     from gnssrel.io import writers
+    from gnssrel.jobs import accounting
     from gnssrel.progress import step
 
     common.check_outputs(args)
@@ -106,19 +168,31 @@ def run(args) -> dict:
     for warning in obs_ds.attrs.get("warnings", []):   # header/body disagreements, skipped epochs
         log.warning("%s: %s", args.obs, warning)
     obs_ds = _decimate(obs_ds, args.step)
+    check_log_against_navigation(obs_ds, nav, present, args.obs)
     receiver_clocks = None
     if args.receiver_clocks:
         from gnssrel.io.receiver_clocks import read_receiver_clocks
-        receiver_clocks = read_receiver_clocks(args.receiver_clocks)
+        from gnssrel.jobs.clocks import receiver_rows_in_window
+
+        t = obs_ds["time"].values
+        receiver_clocks = receiver_rows_in_window(read_receiver_clocks(args.receiver_clocks), args.receiver_clocks,
+                                                  t.min(), t.max(), systems, nav=nav, present=present)
     fixes = None
     if args.receiver_fixes:
         from gnssrel.io.receiver_fixes import read_receiver_fixes
         fixes = read_receiver_fixes(args.receiver_fixes, date_utc=args.fix_date)
     result = audit_log(obs_ds, nav, receiver_position_ecef_m=position, systems=systems,
                        elevation_mask_deg=args.elevation_mask, fixes=fixes, precise=precise,
-                       weighting=args.weighting,
+                       weighting=args.weighting, rule=args.rule,
                        receiver_clocks=receiver_clocks)
     summary = audit_summary(result)
+    ledger = accounting.audit_accounting(result, obs_ds, nav, systems, precise=_counted_precise(precise),
+                                         fixes=fixes, receiver_clocks=receiver_clocks)
+    summary["accounting"] = ledger.as_dict()
+    why_no_fix = check_something_computed(summary, ledger, args.obs, nav, present, obs_ds)
+    if why_no_fix:
+        summary["position"]["why_none"] = why_no_fix
+        log.warning("%s: %s", args.obs, why_no_fix)
     times = obs_ds["time"].values
     if times.size:
         summary["observations"].update(start=times[0], end=times[-1], time_scale="GPST")
@@ -159,7 +233,7 @@ def _print_text(summary: dict) -> None:
         print(f"median 3-D position error against the {p['reference']} position: {p['median_error_3d_m']:.2f} m "
               f"(periodic term omitted: {p['median_error_3d_m_without_periodic']:.2f} m)")
     else:
-        print("no epoch could be solved for a position (too few satellites above the mask?)")
+        print(f"no position: {p.get('why_none') or 'no epoch could be solved'}")
     fixes = summary.get("receiver_fixes")
     if fixes and fixes.get("closest"):
         h = fixes["closest"]

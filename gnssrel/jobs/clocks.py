@@ -10,7 +10,9 @@ from __future__ import annotations
 
 import logging
 
-from gnssrel.errors import FileFormatError, GnssrelInputError
+import numpy as np
+
+from gnssrel.errors import FileFormatError, GnssrelInputError, NoDataError
 from gnssrel.jobs import common
 
 HELP = "compare broadcast and precise satellite clocks; fit the periodic-term convention"
@@ -36,6 +38,7 @@ def add_arguments(parser) -> None:
     parser.add_argument("--datum", choices=("robust", "epoch-median"), default="robust",
                         help="per-epoch datum: alternating median/mean (default) or the plain median")
     common.add_include_unhealthy(parser)
+    common.add_rule(parser)
     common.add_outputs(parser, "per-satellite, per-epoch table (.csv, .parquet or .nc)")
 
 
@@ -56,8 +59,9 @@ def precise_kind(path) -> str:
 
 def read_precise_clocks(paths, systems=None):
     """Read SP3 or RINEX clock files (all of one kind) into a Dataset with ``clock_s`` (time, sv)."""
-    import numpy as np
     import xarray as xr
+
+    from gnssrel.jobs.accounting import gather, ledger_of, unique_keys
 
     kinds = {precise_kind(p) for p in paths}
     if len(kinds) > 1:
@@ -66,47 +70,135 @@ def read_precise_clocks(paths, systems=None):
     if kind == "sp3":
         from gnssrel.io.sp3 import read_sp3
 
-        return read_sp3(list(paths), systems=systems), "SP3 clocks"
+        return unique_keys(read_sp3(list(paths), systems=systems), "sp3_records", "position_ecef_m"), "SP3 clocks"
     from gnssrel.io.rinex_clock import read_rinex_clock
 
-    parts = [read_rinex_clock(p, systems=systems)[["clock_s"]] for p in paths]
-    ds = parts[0] if len(parts) == 1 else xr.concat(parts, dim="time", join="outer")
-    _, first = np.unique(ds["time"].values, return_index=True)
-    return ds.isel(time=np.sort(first)), "RINEX clock file"
+    parts = [precise_ledger_attached(read_rinex_clock(p, systems=systems)) for p in paths]
+    if len(parts) == 1:
+        return unique_keys(parts[0], "clock_records", "clock_s"), "RINEX clock file"
+    ledger = gather(*(ledger_of(part) for part in parts))
+    ds = xr.concat([part[["clock_s"]] for part in parts], dim="time", join="outer")
+    ds.attrs = {"accounting": ledger.as_dict()}
+    return unique_keys(ds, "clock_records", "clock_s"), "RINEX clock file"
+
+
+def precise_ledger_attached(ds):
+    """A RINEX clock Dataset (``clock_s`` only) carrying its reader's counts, or counts of its values."""
+    from gnssrel.jobs.accounting import precise_ledger
+
+    out = ds[["clock_s"]]
+    out.attrs = dict(ds.attrs)
+    out.attrs["accounting"] = precise_ledger(ds, "clock_records", "clock_s").as_dict()
+    return out
 
 
 def run(args) -> dict:
+    from gnssrel.jobs import accounting
+
     if not args.precise and not args.receiver_clocks:
         raise GnssrelInputError("give --precise SP3|CLK files and/or --receiver-clocks FILE.csv")
     common.check_outputs(args)
     letters = common.parse_systems(args.systems)
     systems = list(letters) if letters else None
     start, end = common.time_window(args)
-    nav, _ = common.read_navigation_files(args.nav, letters)
+    nav, present = common.read_navigation_files(args.nav, letters)
+    ledger = accounting.navigation_ledger(nav)
+    states_used = []
     summary: dict = {}
     table = None
     if args.precise:
-        from gnssrel.clocks.compare import compare_clocks
+        from gnssrel.clocks.compare import compare_clocks, select_epochs
+        from gnssrel.orbits.broadcast import broadcast_states
 
         precise, source = read_precise_clocks(args.precise, systems)
+        item, variable = ("sp3_records", "position_ecef_m") if source == "SP3 clocks" else \
+            ("clock_records", "clock_s")
+        ledger.merge(accounting.precise_ledger(precise, item, variable))
+        t = precise["time"].values
+        if start is None and end is None:   # default: the bulk of the navigation records
+            nav_start, nav_end = common.navigation_span(nav, present)
+            if not ((t >= nav_start) & (t <= nav_end)).any():
+                raise NoDataError(f"no overlap: the precise clocks ({common.fmt_span(t.min(), t.max())}) and "
+                                  f"the navigation records, {common.describe_navigation_span(nav, present)}",
+                                  args.precise[0])
+        keep = t[select_epochs(t, start, end, args.step)]
+        states = broadcast_states(nav, keep, systems=present, include_unhealthy=args.include_unhealthy,
+                                  rule=args.rule) if keep.size else None
         table, summary = compare_clocks(nav, precise, systems=systems, start=start, end=end,
-                                        step_s=args.step, datum_method=args.datum,
+                                        step_s=args.step, datum_method=args.datum, states=states,
                                         include_unhealthy=args.include_unhealthy,
                                         precise_source=f"{source} ({', '.join(map(str, args.precise))})")
+        accounting.retire_outside_window(ledger, precise, item, variable, keep, systems,
+                                         reason=accounting.OUTSIDE_WINDOW if not args.step else
+                                         "outside the time window or not on the --step grid")
+        states_used.append(states)
+        window = (keep[0], keep[-1])
     if args.receiver_clocks:
         from gnssrel.clocks.firmware import check_receiver_clocks
         from gnssrel.io.receiver_clocks import read_receiver_clocks
 
         receiver = read_receiver_clocks(args.receiver_clocks)
-        if start is not None:
-            receiver = receiver[receiver["time"] >= start]
-        if end is not None:
-            receiver = receiver[receiver["time"] <= end]
+        receiver = receiver_rows_in_window(receiver, args.receiver_clocks, start, end, systems,
+                                           nav=nav, present=present)
+        ledger.merge(accounting.ledger_of(receiver))
         rows, check = check_receiver_clocks(receiver, nav, systems=systems)
         summary["receiver_clocks"] = check
         if table is None:
             table = rows
+        t = receiver["time"].to_numpy().astype("datetime64[ns]")
+        from gnssrel.orbits.broadcast import broadcast_states
+
+        times = np.unique(t)
+        states_used.append(broadcast_states(nav, times, systems=present))
+        window = (times[0], times[-1]) if not args.precise else (min(window[0], times[0]), max(window[1], times[-1]))
+    accounting.retire_navigation(ledger, nav, states_used, present, window[0], window[1], args.include_unhealthy)
+    summary["selection_rule"] = args.rule
+    summary["accounting"] = ledger.as_dict()
     return common.emit(args, summary, table, _print_text)
+
+
+def receiver_rows_in_window(receiver, path, start, end, systems, nav=None, present=None):
+    """The rows of a receiver clock table inside [start, end] and of the requested systems; the
+    others retired with their reason in the returned table's ``attrs["accounting"]``.
+    No row left: a message naming the file and the real cause (exit 2)."""
+    from gnssrel.jobs import accounting
+
+    rows_ledger = accounting.gather(accounting.ledger_of(receiver))
+    letters = receiver["sv"].astype(str).str[0].to_numpy()
+    for letter in np.unique(letters):
+        accounting._ensure_counted(rows_ledger, "receiver_clock_rows", str(letter),
+                                   int((letters == letter).sum()))
+    t = receiver["time"].to_numpy().astype("datetime64[ns]")
+    in_window = np.ones(t.size, bool)
+    if start is not None:
+        in_window &= t >= np.datetime64(start, "ns")
+    if end is not None:
+        in_window &= t <= np.datetime64(end, "ns")
+    wanted = np.isin(letters, list(systems)) if systems else np.ones(t.size, bool)
+    for letter in np.unique(letters):
+        own = letters == letter
+        rows_ledger.retire("receiver_clock_rows", str(letter), accounting.NOT_REQUESTED, int((own & ~wanted).sum()))
+        rows_ledger.retire("receiver_clock_rows", str(letter), accounting.OUTSIDE_WINDOW,
+                           int((own & wanted & ~in_window).sum()))
+    keep = in_window & wanted
+    if not keep.any():
+        span = common.fmt_span(t.min(), t.max()) if t.size else "no rows"
+        if not wanted.any():
+            why = (f"it holds no row of the requested systems {''.join(systems)} (its systems: "
+                   f"{''.join(common.in_system_order(set(letters)))})")
+        else:
+            window = common.fmt_span(start if start is not None else t.min(), end if end is not None else t.max())
+            why = f"no overlap: its rows span {span}, the window is {window}"
+        raise NoDataError(f"the receiver clock table cannot be checked: {why}", path)
+    if nav is not None and present:
+        nav_start, nav_end = common.navigation_span(nav, present)
+        half_day = np.timedelta64(12, "h")
+        if not ((t[keep] >= nav_start - half_day) & (t[keep] <= nav_end + half_day)).any():
+            raise NoDataError(f"no overlap: the receiver clock table's rows ({common.fmt_span(t.min(), t.max())}) "
+                              f"and the navigation records, {common.describe_navigation_span(nav, present)}", path)
+    out = receiver[keep].copy()
+    out.attrs = {**receiver.attrs, "accounting": rows_ledger.as_dict()}
+    return out
 
 
 DATUM_WORDS = {"robust": "alternating per-epoch median and per-satellite mean",

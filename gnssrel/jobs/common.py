@@ -41,6 +41,13 @@ def add_include_unhealthy(parser) -> None:
                              "(e.g. the eccentric Galileo E14, E18)")
 
 
+def add_rule(parser) -> None:
+    """``--rule post|receiver``: the broadcast record-selection rule (gnssrel.orbits.selection)."""
+    from gnssrel.orbits.selection import DEFAULT_RULE, RULE_HELP, RULE_NAMES
+
+    parser.add_argument("--rule", choices=RULE_NAMES, default=DEFAULT_RULE, help=RULE_HELP)
+
+
 def add_outputs(parser, table_help: str = "table to write (.csv, .parquet or .nc)") -> None:
     parser.add_argument("--output", metavar="FILE", help=table_help)
     parser.add_argument("--summary", metavar="FILE.json", help=SUMMARY_HELP)
@@ -90,11 +97,88 @@ def read_navigation_files(paths, systems: str | None = None):
     return nav, present
 
 
+MAX_GRID_EPOCHS = 11_520
+"""Largest epoch grid a command builds (4 days at 30 s); beyond it the user is asked for --step."""
+ADJACENT_DAY_SHARE = 0.02
+"""A day next to the densest one belongs to the bulk of the records when it holds at least this share
+of the densest day's records (a daily file's records of 00:00 the next day do; one garbled record does not)."""
+
+
+def _reference_times(nav, systems: str) -> np.ndarray:
+    refs = [np.asarray(nav.ephemerides[s]["toe" if s != "R" else "toc"]).astype("datetime64[ns]")
+            for s in systems if s in nav.ephemerides]
+    refs = np.concatenate(refs) if refs else np.array([], dtype="datetime64[ns]")
+    return refs[~np.isnat(refs)]
+
+
+def _bulk_days(refs: np.ndarray) -> np.ndarray:
+    """The days holding the bulk of the reference times: the densest day and its neighbours
+    in an unbroken run, each with at least ADJACENT_DAY_SHARE of the densest day's records."""
+    days, counts = np.unique(refs.astype("datetime64[D]"), return_counts=True)
+    best = int(np.argmax(counts))
+    floor = max(1.0, ADJACENT_DAY_SHARE * counts[best])
+    lo = hi = best
+    one = np.timedelta64(1, "D")
+    while lo > 0 and days[lo - 1] == days[lo] - one and counts[lo - 1] >= floor:
+        lo -= 1
+    while hi < days.size - 1 and days[hi + 1] == days[hi] + one and counts[hi + 1] >= floor:
+        hi += 1
+    return days[lo:hi + 1]
+
+
 def navigation_span(nav, systems: str) -> tuple[np.datetime64, np.datetime64]:
-    """First and last reference time (toe; t_b for GLONASS) of the records, GPST."""
-    refs = np.concatenate([np.asarray(nav.ephemerides[s]["toe" if s != "R" else "toc"])
-                           .astype("datetime64[ns]") for s in systems])
-    return refs.min(), refs.max()
+    """First and last reference time (toe; t_b for GLONASS) of the bulk of the records, GPST.
+
+    The bulk: the day holding most records and the adjacent days that hold a fair
+    share (:func:`_bulk_days`), so a single record with a garbled week or date does
+    not stretch the default window over months; records outside are not used (the
+    accounting counts them as outside the time window).
+    """
+    refs = _reference_times(nav, systems)
+    if refs.size == 0:
+        raise NoDataError(f"no record of systems {systems} has a reference time", getattr(nav, "path", None))
+    days = _bulk_days(refs)
+    bulk = refs[np.isin(refs.astype("datetime64[D]"), days)]
+    return bulk.min(), bulk.max()
+
+
+def describe_navigation_span(nav, systems: str) -> str:
+    """'2020-06-25 00:00:00 to 23:59:44 GPST (the bulk of the records of FILE)' for messages."""
+    start, end = navigation_span(nav, systems)
+    return f"{fmt_span(start, end)} (the bulk of the records' reference times in {nav_files(nav)})"
+
+
+def nav_files(nav) -> str:
+    """The navigation file name(s) for a message."""
+    paths = (getattr(nav, "header", {}) or {}).get("merged_from") or [getattr(nav, "path", None)]
+    return ", ".join(str(p) for p in paths if p is not None) or "the navigation data"
+
+
+def navigation_window(args, nav, systems: str):
+    """(start, end) GPST from --start/--end, else the bulk of the navigation records' span;
+    a window that misses the records' span altogether is refused naming both spans."""
+    from gnssrel.timescales import parse_time
+
+    span = navigation_span(nav, systems)
+    start = parse_time(args.start, "GPST") if getattr(args, "start", None) else span[0]
+    end = parse_time(args.end, "GPST") if getattr(args, "end", None) else span[1]
+    if (start > span[1] or end < span[0]) and not (getattr(args, "start", None) and getattr(args, "end", None)
+                                                   and end < start):
+        given = " and ".join(f"--{k} {getattr(args, k)}" for k in ("start", "end") if getattr(args, k, None))
+        raise NoDataError(f"no overlap: the window asked for ({given}) and the navigation records, "
+                          f"{describe_navigation_span(nav, systems)}, have no time in common")
+    return time_window(args, span[0], span[1])
+
+
+def check_grid_size(start, end, step_s: float, what: str = "the window") -> None:
+    """Refuse a grid of more than MAX_GRID_EPOCHS epochs, with the way out in the message."""
+    span_s = (np.datetime64(end, "ns") - np.datetime64(start, "ns")) / np.timedelta64(1, "s")
+    n = int(span_s // step_s) + 1 if span_s >= 0 else 0
+    if n > MAX_GRID_EPOCHS:
+        raise GnssrelInputError(
+            f"{what} ({fmt_span(start, end)}) at {step_s:g} s would be {n} epochs, more than the "
+            f"{MAX_GRID_EPOCHS} gnssrel computes at once: give a larger --step (e.g. "
+            f"{np.ceil(span_s / MAX_GRID_EPOCHS / 30) * 30:g}) or a shorter --start/--end")
 
 
 def time_window(args, default_start=None, default_end=None):
@@ -119,7 +203,10 @@ def emit(args, summary: dict, table=None, print_text=None) -> dict:
     if getattr(args, "json", False):
         print(writers.to_json_text(summary))
     elif print_text is not None and not getattr(args, "quiet", False):
+        from gnssrel.jobs.accounting import print_block
+
         print_text(summary)
+        print_block(summary, verbose=bool(getattr(args, "verbose", 0)))
     return summary
 
 
@@ -212,8 +299,7 @@ def navigation_main_day(nav, systems: str) -> tuple[np.datetime64, np.datetime64
     before; with precise products of two days given for interpolation, this is
     the day the user means.
     """
-    refs = np.concatenate([np.asarray(nav.ephemerides[s]["toe" if s != "R" else "toc"])
-                           .astype("datetime64[ns]") for s in systems])
+    refs = _reference_times(nav, systems)
     days, counts = np.unique(refs.astype("datetime64[D]"), return_counts=True)
     day = days[np.argmax(counts)].astype("datetime64[ns]")
     return day, day + np.timedelta64(1, "D")

@@ -112,5 +112,5 @@ def run(args) -> dict:
         print(to_json_text(content.summary))
     elif not args.quiet:
         print(f"done in {time.monotonic() - began:.1f} s")
-        print_findings(content, out / "report.html")
+        print_findings(content, out / "report.html", verbose=bool(args.verbose))
     return content.summary

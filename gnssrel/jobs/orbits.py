@@ -42,6 +42,7 @@ def add_arguments(parser) -> None:
     common.add_time_window(parser, DEFAULT_STEP_S,
                            f"grid interval without --precise (default {DEFAULT_STEP_S:g} s)")
     common.add_include_unhealthy(parser)
+    common.add_rule(parser)
     parser.add_argument("--frame", choices=("ecef", "eci"), default="ecef",
                         help="eci adds inertial positions/velocities (ECEF frozen at the first epoch)")
     common.add_outputs(parser)
@@ -84,7 +85,8 @@ def _states_summary(ds, start, end):
                              "status_counts": {codes[int(c)]: int(n) for c, n in
                                                zip(*np.unique(status, return_counts=True))}}
     return {"mode": "states", "start": start, "end": end, "n_epochs": int(ds.sizes["time"]),
-            "time_scale": "GPST", "by_system": by_system}
+            "time_scale": "GPST", "selection_rule": ds.attrs.get("selection_rule", "post"),
+            "by_system": by_system}
 
 
 def _print_table(summary):
@@ -104,38 +106,56 @@ def _print_table(summary):
 
 
 def run(args) -> dict:
+    from gnssrel.jobs import accounting
     from gnssrel.orbits.broadcast import broadcast_states, time_grid
 
     common.check_outputs(args)
     nav, systems = common.read_navigation_files(args.nav, common.parse_systems(args.systems))
-    start, end = common.time_window(args, *common.navigation_span(nav, systems))
+    start, end = common.navigation_window(args, nav, systems)
+    ledger = accounting.navigation_ledger(nav)
     if args.precise:
         from gnssrel.io.sp3 import read_sp3
         from gnssrel.orbits.compare import compare_with_precise
         from gnssrel.orbits.precise import precise_states
 
         sp3 = read_sp3(list(args.precise), systems=systems)
+        ledger.merge(accounting.precise_ledger(sp3, "sp3_records", "position_ecef_m"))
         t = sp3["time"].values
         if not args.start and not args.end:   # default: the navigation file's main day
             day_start, day_end = common.navigation_main_day(nav, systems)
             start, end = max(start, day_start), min(end, day_end - np.timedelta64(1, "ns"))
         times = t[(t >= start) & (t <= end)]
         if times.size == 0:
-            raise NoDataError(f"the SP3 epochs ({t.min()} to {t.max()} GPST) do not overlap the "
-                              f"span {start} to {end} GPST", args.precise[0])
+            raise NoDataError(f"the SP3 epochs ({common.fmt_span(t.min(), t.max())}) do not overlap the "
+                              f"window {common.fmt_span(start, end)}", args.precise[0])
         precise = precise_states(sp3, times)
-        states = broadcast_states(nav, times, systems, args.include_unhealthy)
+        states = broadcast_states(nav, times, systems, args.include_unhealthy, rule=args.rule)
+        _check_states(states, nav, systems, start, end)
         table, summary = compare_with_precise(states, precise)
         summary = {"mode": "comparison", "start": times[0], "end": times[-1],
                    "n_epochs": int(times.size), "time_scale": "GPST",
-                   "include_unhealthy": bool(args.include_unhealthy), **summary}
+                   "include_unhealthy": bool(args.include_unhealthy), "selection_rule": args.rule, **summary}
+        accounting.retire_outside_window(ledger, sp3, "sp3_records", "position_ecef_m", times, systems)
     else:
         step_ns = round(args.step * 1e9)
         remainder = int(start.astype("datetime64[ns]").astype(np.int64)) % step_ns
         grid_start = start + np.timedelta64((step_ns - remainder) % step_ns, "ns")  # on multiples of step
+        common.check_grid_size(grid_start, end, args.step)
         times = time_grid(grid_start, end, args.step)
-        states = broadcast_states(nav, times, systems, args.include_unhealthy, frame=args.frame)
+        states = broadcast_states(nav, times, systems, args.include_unhealthy, frame=args.frame, rule=args.rule)
+        _check_states(states, nav, systems, start, end)
         table = _netcdf_ready(states) if args.output and args.output.lower().endswith(".nc") \
             else _state_table(states)
         summary = _states_summary(states, times[0] if times.size else start, end)
+    accounting.retire_navigation(ledger, nav, [states], systems, start, end, args.include_unhealthy)
+    summary["accounting"] = ledger.as_dict()
     return common.emit(args, summary, table, _print_table)
+
+
+def _check_states(states, nav, systems, start, end) -> None:
+    """No state at all in the window: say why (the window and the records' span), exit 2."""
+    if states.sizes.get("time", 0) and (states["status"].values == 0).any():
+        return
+    raise NoDataError(f"no satellite has a broadcast state in the window {common.fmt_span(start, end)}: "
+                      f"it does not overlap the navigation records, "
+                      f"{common.describe_navigation_span(nav, systems)}")

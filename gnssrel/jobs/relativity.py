@@ -40,37 +40,65 @@ def add_arguments(parser) -> None:
     common.add_systems(parser)
     common.add_time_window(parser, DEFAULT_STEP_S)
     common.add_include_unhealthy(parser)
+    common.add_rule(parser)
     common.add_outputs(parser, "per-epoch table (.csv, .parquet or .nc)")
 
 
 def _epochs(nav, systems, args):
     from gnssrel.orbits.broadcast import time_grid
 
-    start, end = common.time_window(args, *common.navigation_span(nav, systems))
+    start, end = common.navigation_window(args, nav, systems)
+    common.check_grid_size(start, end, args.step)
     times = time_grid(start, end, args.step)
     if times.size < 3:
-        raise GnssrelInputError("fewer than 3 epochs between --start and --end: the proper-time "
-                                "integral needs at least 3")
+        if args.start or args.end:
+            window = f"between --start and --end ({common.fmt_span(start, end)})"
+        else:
+            window = (f"in the default window {common.fmt_span(start, end)}, the span of the bulk of the "
+                      f"navigation records' reference times in {common.nav_files(nav)}")
+        raise GnssrelInputError(f"only {times.size} epoch{'s' if times.size != 1 else ''} every "
+                                f"{args.step:g} s {window}: the proper-time integral needs at least 3 "
+                                "(give a wider --start/--end or a smaller --step)")
     return times
 
 
-def states_for(args, nav, systems, times):
-    """Broadcast states, or precise ones carrying the broadcast elements (NaN where none)."""
+def states_for(args, nav, systems, times, ledger=None):
+    """Broadcast states, or precise ones carrying the broadcast elements (NaN where none).
+
+    With a ``ledger``, the navigation records no state used are retired in it, and
+    the SP3 reader's counts added with the records outside the epochs retired.
+    """
+    from gnssrel.jobs import accounting
     from gnssrel.orbits.broadcast import broadcast_states
 
     broadcast = broadcast_states(nav, times, systems=systems,
-                                 include_unhealthy=args.include_unhealthy)
+                                 include_unhealthy=args.include_unhealthy,
+                                 rule=getattr(args, "rule", "post"))
+    if ledger is not None:
+        accounting.retire_navigation(ledger, nav, [broadcast], systems, times[0], times[-1],
+                                     args.include_unhealthy)
     if not args.precise:
         return broadcast
     from gnssrel.io.sp3 import read_sp3
     from gnssrel.orbits.precise import precise_states
 
     sp3 = read_sp3(list(args.precise), systems=list(systems))
+    if ledger is not None:
+        ledger.merge(accounting.precise_ledger(sp3, "sp3_records", "position_ecef_m"))
+        _retire_sp3_outside(ledger, sp3, times, systems)
     states = precise_states(sp3, times)
     aligned = broadcast[list(BROADCAST_ELEMENTS)].reindex(sv=states["sv"].values)
     for name in BROADCAST_ELEMENTS:
         states[name] = aligned[name]
     return states
+
+
+def _retire_sp3_outside(ledger, sp3, times, systems):
+    """SP3 records used: those the interpolation of the grid can reach; the others are outside."""
+    from gnssrel.jobs import accounting
+
+    accounting.retire_beyond_reach(ledger, sp3, "sp3_records", "position_ecef_m", times[0], times[-1],
+                                   accounting.sp3_reach_s(sp3), systems)
 
 
 def relativity_table(ds):
@@ -87,19 +115,24 @@ def relativity_table(ds):
 
 
 def run(args) -> dict:
+    from gnssrel.jobs import accounting
     from gnssrel.relativity.engine import relativity_summary, relativity_terms
 
     common.check_outputs(args)
     nav, present = common.read_navigation_files(args.nav, common.parse_systems(args.systems))
     times = _epochs(nav, present, args)
-    states = states_for(args, nav, present, times)
+    ledger = accounting.navigation_ledger(nav)
+    states = states_for(args, nav, present, times, ledger)
     if not np.isfinite(states["position_ecef_m"].values).any():
-        raise NoDataError("no satellite has a usable state between --start and --end", args.nav[0])
+        raise NoDataError(f"no satellite has a usable state in the window {common.fmt_span(times[0], times[-1])}; "
+                          f"the navigation records: {common.describe_navigation_span(nav, present)}"
+                          + (f"; precise orbits: {', '.join(map(str, args.precise))}" if args.precise else ""))
     ds = relativity_terms(states)
     summary = relativity_summary(ds)
     summary.update(start=times[0], end=times[-1], step_s=float(args.step), n_epochs=int(times.size),
                    time_scale="GPST", states="precise (SP3)" if args.precise else "broadcast",
-                   include_unhealthy=bool(args.include_unhealthy))
+                   include_unhealthy=bool(args.include_unhealthy), selection_rule=args.rule)
+    summary["accounting"] = ledger.as_dict()
     return common.emit(args, summary, relativity_table(ds) if args.output else None, _print_text)
 
 

@@ -47,6 +47,7 @@ def add_arguments(parser) -> None:
                         help="each receiver's own satellite-clock table, one per --obs, same order")
     common.add_systems(parser)
     common.add_time_window(parser, None, STEP_HELP)
+    common.add_rule(parser)
     parser.add_argument("--title", default=None, help="report title (default: from the files)")
     parser.add_argument("--output", required=True, metavar="DIR", help="report folder to write")
     parser.add_argument("--plots", metavar="DIR", help="also copy the PNG figures into this folder")
@@ -107,9 +108,12 @@ def _time_grid(start, end, obs_list, step_s):
                      default=DEFAULT_STEP_S)
     if end <= start:
         end = start + np.timedelta64(2, "h")
+    common.check_grid_size(start, end, step_s)
     times = time_grid(start, end, step_s)
     if times.size < 3:
-        raise GnssrelInputError("fewer than 3 epochs in the window: the proper-time integral needs at least 3")
+        raise GnssrelInputError(f"only {times.size} epochs every {step_s:g} s in the window "
+                                f"{common.fmt_span(start, end)}: the proper-time integral needs at least 3 "
+                                "(give a wider --start/--end or a smaller --step)")
     return times
 
 
@@ -131,8 +135,9 @@ def _receiver_name(obs_ds, path) -> str:
 
 def analyse(nav_paths, precise_paths=(), obs_paths=(), fixes_paths=(), clocks_paths=(), title=None,
             description=None, progress=print, clock_fallback: bool = False, systems: str | None = None,
-            start=None, end=None, step_s: float | None = None):
+            start=None, end=None, step_s: float | None = None, rule: str = "post"):
     """Run every stage the inputs allow; returns a ReportContent (see gnssrel.report.content).
+    ``rule``: the broadcast record-selection rule of every stage (gnssrel.orbits.selection).
 
     ``systems`` (letters, None = all), ``start``/``end`` (GPST datetime64, None = the default
     window of :func:`default_window`) and ``step_s`` (None = the logs' interval, else 30 s;
@@ -140,6 +145,8 @@ def analyse(nav_paths, precise_paths=(), obs_paths=(), fixes_paths=(), clocks_pa
     every stage: orbits, relativity, clocks and the audit.
     """
     from gnssrel import read_observations
+    from gnssrel.jobs import accounting
+    from gnssrel.jobs.audit import check_log_against_navigation
     from gnssrel.orbits.broadcast import broadcast_states
     from gnssrel.relativity.engine import relativity_summary, relativity_terms
     from gnssrel.report.content import ReceiverFindings, ReportContent
@@ -163,19 +170,20 @@ def analyse(nav_paths, precise_paths=(), obs_paths=(), fixes_paths=(), clocks_pa
         from gnssrel.io.sp3 import read_sp3
 
         progress(f"reading {len(sp3_paths)} SP3 file(s)")
-        sp3 = read_sp3(sp3_paths, systems=letters)
+        sp3 = accounting.unique_keys(read_sp3(sp3_paths, systems=letters), "sp3_records", "position_ecef_m")
     clk, clk_source = _read_clock_files(clk_paths, letters, sp3 is not None and clock_fallback, notes, progress)
     obs_list = []
     for p in obs_paths:
         progress(f"reading observations {Path(p).name}")
         obs_list.append(_decimate(read_observations(p, systems=letters, start=start, end=end), step_s))
+        check_log_against_navigation(obs_list[-1], nav, present, p)
     default_start, default_end = default_window(nav, letters, obs_list, sp3, clk)
     start = default_start if start is None else start
     end = default_end if end is None else end
     times = _time_grid(start, end, obs_list, step_s)
     progress(f"broadcast orbits and relativity terms ({present}): {times.size} epochs "
              f"{str(times[0])[:16]} to {str(times[-1])[:16]} GPST")
-    states = broadcast_states(nav, times, systems=letters)
+    states = broadcast_states(nav, times, systems=letters, rule=rule)
     rel = relativity_terms(states)
     rel_summary = relativity_summary(rel)
     content = ReportContent(title=title or "gnssrel report", relativity=rel, relativity_summary=rel_summary,
@@ -183,31 +191,47 @@ def analyse(nav_paths, precise_paths=(), obs_paths=(), fixes_paths=(), clocks_pa
                             inputs={"navigation": nav_paths, "sp3": sp3_paths, "clock": clk_paths,
                                     "observations": obs_paths, "fixes": fixes_paths,
                                     "satellite_clocks": clocks_paths})
+    ledger = accounting.navigation_ledger(nav)
+    rows = [accounting.used_rows([states])]
     if sp3 is not None:
-        _orbits(content, nav, sp3, times, letters, progress)
+        ledger.merge(accounting.precise_ledger(sp3, "sp3_records", "position_ecef_m"))
+        accounting.retire_beyond_reach(ledger, sp3, "sp3_records", "position_ecef_m", times[0], times[-1],
+                                       accounting.sp3_reach_s(sp3), letters)
+        rows.append(accounting.used_rows([_orbits(content, nav, sp3, times, letters, progress, rule)]))
+    if clk is not None:
+        ledger.merge(accounting.precise_ledger(clk, "clock_records", "clock_s"))
     if clk is None and sp3 is not None:
         clk, clk_source = sp3, f"SP3 clocks {', '.join(Path(p).name for p in sp3_paths)}"
     if clk is not None:
         progress(f"broadcast vs precise clocks ({clk_source})")
-        content.clock_table, content.clock_summary = compare_clocks_in_window(
-            nav, clk, letters, times[0], times[-1], step_s, clk_source)
+        content.clock_table, content.clock_summary, clock_states = compare_clocks_in_window(
+            nav, clk, letters, times[0], times[-1], step_s, clk_source, with_states=True, rule=rule)
         content.clock_source = clk_source
+        rows.append(accounting.used_rows([clock_states]))
+        if "position_ecef_m" not in clk:      # clock files (the SP3's clocks are counted with its records)
+            accounting.retire_outside_window(ledger, clk, "clock_records", "clock_s", clock_states["time"].values,
+                                             letters)
     for i, (path, obs_ds) in enumerate(zip(obs_paths, obs_list)):
         r = ReceiverFindings(name=_receiver_name(obs_ds, path), observations_path=str(path),
                              fixes_path=fixes_paths[i] if fixes_paths else None,
                              clocks_path=clocks_paths[i] if clocks_paths else None)
-        _audit(r, obs_ds, nav, letters, (times[0], times[-1]), progress)
+        _audit(r, obs_ds, nav, letters, (times[0], times[-1]), progress, rule)
         content.receivers.append(r)
+        ledger.merge(accounting.audit_accounting(r.audit, obs_ds, nav, letters, fixes=r.fixes,
+                                                 receiver_clocks=r.clock_table, navigation=False))
+        rows.append(r.audit.extra.get("ephemeris_rows", {}))
+    accounting.retire_navigation(ledger, nav, accounting.union_rows(*rows), letters, times[0], times[-1])
     from gnssrel.report.verdicts import receiver_verdict
 
     for r in content.receivers:
         r.verdict = receiver_verdict(r.name, r.audit_summary, r.clock_check)
+    content.accounting = ledger.as_dict()
     content.summary = combined_summary(content)
     content.summary["systems"] = present
     return content
 
 
-def _orbits(content, nav, sp3, times, systems, progress):
+def _orbits(content, nav, sp3, times, systems, progress, rule="post"):
     from gnssrel.orbits.broadcast import broadcast_states
     from gnssrel.orbits.compare import compare_with_precise
     from gnssrel.orbits.precise import precise_states
@@ -218,8 +242,9 @@ def _orbits(content, nav, sp3, times, systems, progress):
         content.notes.append("the SP3 epochs do not overlap the analysed span: no orbit comparison")
         return
     progress(f"broadcast vs precise orbits at {inside.size} SP3 epochs")
-    content.orbit_table, content.orbit_summary = compare_with_precise(
-        broadcast_states(nav, inside, systems=systems), precise_states(sp3, inside))
+    states = broadcast_states(nav, inside, systems=systems, rule=rule)
+    content.orbit_table, content.orbit_summary = compare_with_precise(states, precise_states(sp3, inside))
+    return states
 
 
 def _read_clock_files(clk_paths, systems, fallback, notes, progress):
@@ -240,31 +265,39 @@ def _read_clock_files(clk_paths, systems, fallback, notes, progress):
     return precise[["clock_s"]], f"{kind} {', '.join(Path(p).name for p in clk_paths)}"
 
 
-def compare_clocks_in_window(nav, precise, systems, start, end, step_s, source):
-    """Broadcast vs precise clocks for ``systems`` on the precise epochs in [start, end]."""
-    from gnssrel.clocks.compare import compare_clocks
+def compare_clocks_in_window(nav, precise, systems, start, end, step_s, source, with_states: bool = False,
+                             rule: str = "post"):
+    """Broadcast vs precise clocks for ``systems`` on the precise epochs in [start, end]
+    (with ``with_states``, the broadcast states of those epochs as a third item)."""
+    from gnssrel.clocks.compare import compare_clocks, select_epochs
+    from gnssrel.orbits.broadcast import broadcast_states
 
-    return compare_clocks(nav, precise[["clock_s"]], systems=systems, start=start, end=end,
-                          step_s=step_s, precise_source=source)
+    t = precise["time"].values
+    keep = t[select_epochs(t, start, end, step_s)]
+    states = broadcast_states(nav, keep, systems=systems, rule=rule) if keep.size else None
+    table, summary = compare_clocks(nav, precise[["clock_s"]], systems=systems, start=start, end=end,
+                                    step_s=step_s, precise_source=source, states=states)
+    return (table, summary, states) if with_states else (table, summary)
 
 
-def _audit(r, obs_ds, nav, systems, window, progress):
+def _audit(r, obs_ds, nav, systems, window, progress, rule="post"):
     from gnssrel.audit.positioning import position_errors_3d_m
     from gnssrel.audit.summary import audit_log, audit_summary, per_epoch_errors
     from gnssrel.clocks.firmware import check_receiver_clocks
     from gnssrel.io.receiver_clocks import read_receiver_clocks
     from gnssrel.io.receiver_fixes import read_receiver_fixes
+    from gnssrel.jobs.clocks import receiver_rows_in_window
 
     if r.fixes_path:
         r.fixes = read_receiver_fixes(r.fixes_path)
     progress(f"{r.name}: audit of the observation log" + (" and the receiver's fixes" if r.fixes_path else ""))
-    r.audit = audit_log(obs_ds, nav, systems=systems, fixes=r.fixes)
+    r.audit = audit_log(obs_ds, nav, systems=systems, fixes=r.fixes, rule=rule)
     clock_status = None
     if r.clocks_path:
         progress(f"{r.name}: the receiver's satellite-clock table")
-        table = read_receiver_clocks(r.clocks_path)
-        when = table["time"].to_numpy().astype("datetime64[ns]")
-        table = table[(when >= window[0]) & (when <= window[1])]
+        table = receiver_rows_in_window(read_receiver_clocks(r.clocks_path), r.clocks_path, window[0], window[1],
+                                        systems)
+        r.clock_table = table
         r.clock_rows, r.clock_check = check_receiver_clocks(table, nav, systems=systems)
         states = {e["status"] for e in r.clock_check["by_system"].values()}
         clock_status = "clock table: " + ("; ".join(sorted(states)))
@@ -287,15 +320,19 @@ def combined_summary(content) -> dict:
         "receiver_audits": {r.name: r.audit_summary for r in content.receivers},
         "receiver_clock_tables": {r.name: r.clock_check for r in content.receivers if r.clock_check},
         "notes": content.notes,
+        "accounting": content.accounting,
     }
 
 
-def print_findings(content, report_path) -> None:
+def print_findings(content, report_path, verbose: bool = False) -> None:
+    from gnssrel.jobs.accounting import print_block
+
     print(f"report: {report_path}")
     for r in content.receivers:
         print(f"  {r.verdict['verdict']}")
     for note in content.notes:
         print(f"  note: {note}")
+    print_block(content.summary, verbose)
 
 
 def run(args) -> dict:
@@ -309,11 +346,11 @@ def run(args) -> dict:
     start, end = common.time_window(args)
     content = analyse(args.nav, args.precise, args.obs, args.receiver_fixes, args.receiver_clocks,
                       title=args.title, progress=progress, systems=common.parse_systems(args.systems),
-                      start=start, end=end, step_s=args.step)
+                      start=start, end=end, step_s=args.step, rule=args.rule)
     progress("drawing the figures and writing the report")
     folder = write_report(content, args.output, plots=args.plots)
     if args.json:
         print(to_json_text(content.summary))
     elif not args.quiet:
-        print_findings(content, Path(folder) / "report.html")
+        print_findings(content, Path(folder) / "report.html", verbose=bool(args.verbose))
     return content.summary

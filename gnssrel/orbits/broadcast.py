@@ -4,8 +4,9 @@
 Dataset on a (time, sv) grid for every system in the navigation data:
 Keplerian systems through ``keplerian.kepler_states``, GLONASS through
 ``glonass.glonass_states``, each (epoch, satellite) served by the record that
-``selection.select_ephemerides`` chooses.  Epochs without a usable record are
-NaN, with the reason in ``status`` (codes in ``attrs["status_codes"]``).
+``selection.select_ephemerides`` chooses under the named rule (``"post"`` by
+default).  Epochs without a usable record are NaN, with the reason in ``status``
+(codes in ``attrs["status_codes"]``, the rule in ``attrs["selection_rule"]``).
 
 Broadcast clock polynomial, ``clock_poly_s`` (no periodic relativistic term, no group delay):
 
@@ -28,7 +29,7 @@ from gnssrel.constants import SYSTEM_ORDER
 from gnssrel.orbits.frames import OMEGA_ECI_RAD_S, ecef_to_eci
 from gnssrel.orbits.glonass import glonass_states
 from gnssrel.orbits.keplerian import kepler_states
-from gnssrel.orbits.selection import STATUS_CODES, select_ephemerides
+from gnssrel.orbits.selection import DEFAULT_RULE, get_rule, select_ephemerides, status_codes
 from gnssrel.timescales import as_datetime64, seconds_between
 
 KEPLER_SYSTEMS = "GECJ"
@@ -51,10 +52,10 @@ def _ephemerides(nav) -> Mapping:
     return nav.ephemerides if hasattr(nav, "ephemerides") else nav
 
 
-def _system_block(table, letter: str, times: np.ndarray, include_unhealthy: bool) -> dict:
+def _system_block(table, letter: str, times: np.ndarray, include_unhealthy: bool, rule: str) -> dict:
     """Arrays (n_time, n_sv[, 3]) for one system's satellites."""
     svs = sorted(table["sv"].unique())
-    rows, status = select_ephemerides(table, svs, times, letter, include_unhealthy)
+    rows, status = select_ephemerides(table, svs, times, letter, include_unhealthy, rule=rule)
     n_time, n_sv = rows.shape
     valid = rows >= 0
     picked = rows[valid]
@@ -91,7 +92,7 @@ def _system_block(table, letter: str, times: np.ndarray, include_unhealthy: bool
 
 
 def broadcast_states(nav, times, systems=None, include_unhealthy: bool = False,
-                     frame: str = "ecef") -> xr.Dataset:
+                     frame: str = "ecef", rule: str = DEFAULT_RULE) -> xr.Dataset:
     """Satellite state histories from broadcast ephemerides.
 
     nav: ``NavigationData`` (or a mapping letter -> ephemeris DataFrame).
@@ -100,6 +101,8 @@ def broadcast_states(nav, times, systems=None, include_unhealthy: bool = False,
     include_unhealthy: use unhealthy records and rule-excluded satellites too.
     frame: ``"ecef"``, or ``"eci"`` to add ``position_eci_m`` / ``velocity_eci_m_per_s``
         in the ECEF frame frozen at the first epoch (``gnssrel.orbits.frames``).
+    rule: the record-selection rule, ``"post"`` (default) or ``"receiver"``
+        (:mod:`gnssrel.orbits.selection`); kept in ``attrs["selection_rule"]``.
 
     Returns the contract Dataset: dims (time, sv, axis); ``position_ecef_m``,
     ``velocity_ecef_m_per_s`` (time, sv, axis); ``status`` int8 (time, sv) with
@@ -109,11 +112,12 @@ def broadcast_states(nav, times, systems=None, include_unhealthy: bool = False,
     """
     if frame not in ("ecef", "eci"):
         raise ValueError(f"frame must be 'ecef' or 'eci', not {frame!r}")
+    get_rule(rule)
     times = as_datetime64(times).ravel()
     tables = _ephemerides(nav)
     wanted = SYSTEM_ORDER if systems is None else "".join(systems).upper()
     letters = [s for s in SYSTEM_ORDER if s in wanted and s in tables and len(tables[s])]
-    blocks = [_system_block(tables[s], s, times, include_unhealthy) for s in letters]
+    blocks = [_system_block(tables[s], s, times, include_unhealthy, rule) for s in letters]
     if not blocks:
         blocks = [{"sv": [], "status": np.zeros((times.size, 0), np.int8),
                    "ephemeris_row": np.zeros((times.size, 0), np.int64),
@@ -127,9 +131,9 @@ def broadcast_states(nav, times, systems=None, include_unhealthy: bool = False,
     vec, flat = ("time", "sv", "axis"), ("time", "sv")
     data = {k: (vec if v.ndim == 3 else flat, v) for k, v in joined.items()}
     ds = xr.Dataset(data, coords={"time": times, "sv": np.array(svs, dtype="<U3"), "axis": list(AXES)})
-    ds["status"].attrs["status_codes"] = dict(STATUS_CODES)
+    ds["status"].attrs["status_codes"] = status_codes(rule, "".join(letters))
     ds.attrs.update(time_scale="GPST", frame="ECEF", source="broadcast",
-                    include_unhealthy=int(include_unhealthy))
+                    include_unhealthy=int(include_unhealthy), selection_rule=rule)
     if frame == "eci" and times.size:
         t_ref = times[0]
         t_b = np.broadcast_to(times[:, None], ds["status"].shape)

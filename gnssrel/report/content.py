@@ -30,6 +30,7 @@ class ReceiverFindings:
     fixes_error_3d_m: np.ndarray | None = None   # the receiver's own fixes against the reference
     clock_rows: pd.DataFrame | None = None
     clock_check: dict | None = None
+    clock_table: pd.DataFrame | None = None     # the clock-table rows checked (in the window)
     verdict: dict = field(default_factory=dict)  # gnssrel.report.verdicts.receiver_verdict
 
 
@@ -48,6 +49,7 @@ class ReportContent:
     receivers: list[ReceiverFindings] = field(default_factory=list)
     notes: list[str] = field(default_factory=list)
     summary: dict = field(default_factory=dict)
+    accounting: dict | None = None              # Ledger.as_dict(): every record read, used or dropped
 
     @property
     def time_span(self) -> tuple[np.datetime64, np.datetime64]:

@@ -33,8 +33,9 @@ def observed_mask(content, times, svs, elevation_mask_deg: float = 10.0) -> np.n
         any_log = True
         c = r.audit.corrections
         c = c[c["code"].str.contains("+", regex=False) & (c["elevation_deg"] >= elevation_mask_deg)]
-        ti = np.array([t_index.get(int(t), -1) for t in c["time"].to_numpy().astype("datetime64[ns]").astype("int64")])
-        si = np.array([index.get(s, -1) for s in c["sv"].to_numpy()])
+        ti = np.array([t_index.get(int(t), -1) for t in c["time"].to_numpy().astype("datetime64[ns]").astype("int64")],
+                      dtype=np.int64)
+        si = np.array([index.get(s, -1) for s in c["sv"].to_numpy()], dtype=np.int64)
         ok = (ti >= 0) & (si >= 0)
         seen[ti[ok], si[ok]] = True
     return seen if any_log else None

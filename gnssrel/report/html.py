@@ -87,6 +87,22 @@ def _finding(r) -> str:
     return f'<li class="{cls}"><span class="tag">{tag}.</span>{html.escape(v.get("verdict", r.name))}</li>'
 
 
+def _accounting_section(content, df) -> str:
+    """Every record and observation read: used, or dropped with a reason; and the reader warnings."""
+    warnings = list((content.accounting or {}).get("warnings", []))
+    more = int((content.accounting or {}).get("warnings_dropped", 0))
+    text = ("<h2 id='accounting'>Accounting</h2><p class='csv'>Every navigation, SP3 and clock record and every "
+            "observation read is either used or counted here with the reason it was left aside "
+            "(read = used + dropped, per item and system).</p>" + table_html(df, max_rows=200)
+            + "<p class='csv'>As CSV: <a href='accounting.csv'>accounting.csv</a></p>")
+    if warnings:
+        items = "".join(f"<li>{html.escape(w)}</li>" for w in warnings[:50])
+        extra = len(warnings) - 50 + more
+        text += (f"<h3>Warnings ({len(warnings) + more})</h3><ol class='references'>{items}</ol>"
+                 + (f"<p class='csv'>... and {extra} more (summary.json lists them).</p>" if extra > 0 else ""))
+    return text
+
+
 def render_html(content, figures: list[tuple], tables: dict, shown_tables=()) -> str:
     """The page.  ``figures``: (ReportFigure, png_bytes, {format: file name}); ``tables``: stem ->
     (heading, DataFrame); ``shown_tables``: the stems printed in full (the others are linked)."""
@@ -111,7 +127,9 @@ def render_html(content, figures: list[tuple], tables: dict, shown_tables=()) ->
         parts.append(f"<p class='csv'>Note: {html.escape(note)}</p>")
     parts.append("<nav class='contents'><ol>")
     parts += [f"<li><a href='#{f.key}'>{html.escape(f.title)}</a></li>" for f, _, _ in figures]
-    parts.append("<li><a href='#tables'>Tables</a></li><li><a href='#references'>References</a></li></ol></nav>")
+    parts.append("<li><a href='#tables'>Tables</a></li>"
+                 + ("<li><a href='#accounting'>Accounting</a></li>" if "accounting" in tables else "")
+                 + "<li><a href='#references'>References</a></li></ol></nav>")
     parts.append("<h2 id='figures'>Figures</h2>")
     for n, (fig, png, files) in enumerate(figures, start=1):
         data = base64.b64encode(png).decode("ascii")
@@ -122,11 +140,15 @@ def render_html(content, figures: list[tuple], tables: dict, shown_tables=()) ->
                      f"<span class='files'>Files: {links}</span></figcaption></figure>")
     parts.append("<h2 id='tables'>Tables</h2>")
     for stem, (heading, df) in tables.items():
+        if stem == "accounting":
+            continue                      # its own section below
         link = f"<a href='{stem}.csv'>{stem}.csv</a>"
         if stem in shown_tables:
             parts.append(f"<h3>{html.escape(heading)}</h3>{table_html(df)}<p class='csv'>As CSV: {link}</p>")
         else:
             parts.append(f"<p class='csv'>{html.escape(heading)} ({len(df)} rows): {link}</p>")
+    if "accounting" in tables:
+        parts.append(_accounting_section(content, tables["accounting"][1]))
     parts.append("<h2 id='references'>References</h2><ol class='references'>")
     parts += [f"<li>{html.escape(ref)}</li>" for ref in REFERENCES]
     parts.append("</ol>")

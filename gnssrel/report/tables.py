@@ -89,6 +89,26 @@ def receivers_table(content) -> pd.DataFrame | None:
     return pd.DataFrame(rows)
 
 
+def accounting_table(content) -> pd.DataFrame | None:
+    """Every item read per system: read, used, and the drops by reason (the report's accounting)."""
+    from gnssrel.accounting import READ, USED, Ledger
+
+    if not content.accounting:
+        return None
+    ledger = Ledger.from_dict(content.accounting)
+    rows = []
+    for item, systems in ledger.as_dict().items():
+        if not isinstance(systems, dict):
+            continue
+        for system, cell in systems.items():
+            drops = {o: n for o, n in cell.items() if o not in (READ, USED)}
+            rows.append({"item": item.replace("_", " "), "system": system, "read": cell.get(READ, 0),
+                         "used": cell.get(USED, 0),
+                         "dropped, by reason": "; ".join(f"{n} {o}" for o, n in
+                                                         sorted(drops.items(), key=lambda kv: -kv[1])) or "-"})
+    return pd.DataFrame(rows)
+
+
 def report_tables(content) -> dict[str, tuple[str, pd.DataFrame]]:
     """CSV stem -> (heading, table) for every table the content allows (None ones left out)."""
     tables = {
@@ -99,6 +119,8 @@ def report_tables(content) -> dict[str, tuple[str, pd.DataFrame]]:
         "orbits_per_satellite": ("Broadcast against precise orbits, per satellite", content.orbit_table),
         "clocks_by_system": ("Precise against broadcast clocks", clock_by_system(content)),
         "clock_conventions": ("Convention fits of every clock series", convention_table(content)),
+        "accounting": ("Accounting: every record and observation read, used or dropped with a reason",
+                       accounting_table(content)),
     }
     for r in content.receivers:
         if r.position_errors is not None:
@@ -106,5 +128,6 @@ def report_tables(content) -> dict[str, tuple[str, pd.DataFrame]]:
     return {k: v for k, v in tables.items() if v[1] is not None and len(v[1])}
 
 
-SHOWN_IN_HTML = ("receivers", "relativity_by_system", "orbits_by_system", "clocks_by_system", "clock_conventions")
+SHOWN_IN_HTML = ("receivers", "relativity_by_system", "orbits_by_system", "clocks_by_system", "clock_conventions",
+                 "accounting")
 """Tables printed in the HTML; the long ones are linked as CSV only."""
