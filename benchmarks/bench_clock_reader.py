@@ -1,6 +1,6 @@
 """Benchmark: read the GRG 30 s RINEX clock day 2020-177 (216 000 AS records).
 
-Target (issue 4): about a second on this machine.  Compared in the same run
+Target: about a second on this machine.  Compared in the same run
 with a straightforward per-line Python parser written below (georinex has no
 clock reader) and, for information, with ``pandas.read_fwf`` on the same
 fixed columns.  Prints the times and ratios; checks that all three agree on

@@ -1,6 +1,6 @@
 """Benchmark: read the mixed-nav day 2020-177 MOJN with gnssrel and with georinex.
 
-Target (issue 2): gnssrel at least 20x faster than ``georinex.load`` of the
+Target: gnssrel at least 20x faster than ``georinex.load`` of the
 same file in the same run.  Prints both times and the ratio; exit status 1
 when the target is missed, 0 otherwise (2 when the data is absent).
 

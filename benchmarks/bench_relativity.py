@@ -6,7 +6,7 @@ present, else ~120 synthetic Kepler satellites.  Times are ratios against a
 reference pass in the same run (one vectorised numpy sweep over the same
 arrays: |r|, |v|^2, r.v), so they compare across machines.
 
-Target (issue 3): the table for ~120 satellites x 2880 epochs in a few seconds.
+Target: the table for ~120 satellites x 2880 epochs in a few seconds.
 """
 
 from __future__ import annotations

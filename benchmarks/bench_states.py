@@ -1,6 +1,6 @@
 """Speed of the broadcast state histories: a mixed day at 30 s for every satellite.
 
-Target (issue 2): about 120 satellites x 2880 epochs in well under a second.
+Target: about 120 satellites x 2880 epochs in well under a second.
 Reference in the same run: the same code called once per epoch (a Python loop
 over epochs), timed on a slice and scaled to the day.  Prints the times and the ratio.
 

@@ -1,10 +1,12 @@
-"""Run every benchmark in turn and print their figures: `python benchmarks/run.py [--quick]`.
+"""Run every benchmark in turn and print their figures: `python benchmarks/run.py [--quick] [--suite]`.
 
 Each benchmark times gnssrel against a reference in the same run (the reference
 reader georinex, or a plain Python implementation) and prints the ratio, since
-these machines are too noisy for absolute times.  Exit status: the number of
+these machines are too noisy for absolute times; the audit benchmark reports CPU
+seconds against the absolute targets its issue set.  Exit status: the number of
 benchmarks that missed their target (or failed).  --quick skips the slow
-georinex reference of the observation benchmark.
+georinex reference of the observation benchmark; --suite adds the whole test
+suite's wall and CPU time (minutes).
 """
 
 from __future__ import annotations
@@ -15,13 +17,14 @@ from pathlib import Path
 
 HERE = Path(__file__).resolve().parent
 BENCHMARKS = ("bench_navigation.py", "bench_states.py", "bench_relativity.py",
-              "bench_clock_reader.py", "bench_observations.py")
+              "bench_clock_reader.py", "bench_observations.py", "bench_audit.py")
+OPTIONAL = {"--suite": "bench_suite.py"}
 
 
 def main(argv=None) -> int:
     argv = sys.argv[1:] if argv is None else argv
     failed = 0
-    for name in BENCHMARKS:
+    for name in BENCHMARKS + tuple(name for flag, name in OPTIONAL.items() if flag in argv):
         extra = ["--quick"] if "--quick" in argv and name == "bench_observations.py" else []
         print(f"=== {name}", flush=True)
         rc = subprocess.run([sys.executable, str(HERE / name), *extra], check=False).returncode

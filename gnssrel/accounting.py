@@ -98,7 +98,7 @@ class Ledger:
         else:
             self.warnings_dropped += 1
 
-    def merge(self, other: "Ledger | dict | None") -> "Ledger":
+    def merge(self, other: Ledger | dict | None) -> Ledger:
         """Add another ledger's counts and warnings to this one; returns self."""
         if other is None:
             return self
@@ -159,7 +159,7 @@ class Ledger:
         return out
 
     @classmethod
-    def from_dict(cls, data: dict | None) -> "Ledger":
+    def from_dict(cls, data: dict | None) -> Ledger:
         ledger = cls()
         for item, systems in (data or {}).items():
             if item == "warnings":

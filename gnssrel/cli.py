@@ -13,6 +13,7 @@ import logging
 import os
 import sys
 
+from gnssrel import __version__, progress
 from gnssrel.errors import GnssrelInputError
 
 # Subcommand name -> module in gnssrel.jobs, in the order `--help` lists them.
@@ -53,8 +54,6 @@ def main(argv=None) -> int:
     parser = build_parser()
     args = parser.parse_args(argv)
     if args.version:
-        from gnssrel import __version__
-
         print(f"gnssrel {__version__}")
         return EXIT_OK
     if not getattr(args, "command", None):
@@ -63,8 +62,6 @@ def main(argv=None) -> int:
     level = logging.ERROR if args.quiet else (logging.INFO if args.verbose == 1 else
                                               logging.DEBUG if args.verbose > 1 else logging.WARNING)
     logging.basicConfig(level=level, format="gnssrel: %(message)s")
-    from gnssrel import progress
-
     progress.configure(False if args.quiet else None)
     try:
         args._job.run(args)

@@ -120,10 +120,3 @@ SYSTEM_ORDER = "GECJR"
 # note; common practice identifies them by PRN.
 BEIDOU_GEO_PRNS = frozenset((1, 2, 3, 4, 5, 59, 60, 61, 62, 63))
 
-
-def system_of(sv: str) -> SystemConstants:
-    """The constants of the system a satellite name (``G05``) belongs to."""
-    try:
-        return SYSTEMS[sv[0]]
-    except (KeyError, IndexError):
-        raise KeyError(f"unknown GNSS system in satellite name {sv!r}") from None

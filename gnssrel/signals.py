@@ -79,6 +79,9 @@ channel k is base + k step, k = -7..+6.  L1 = 1602 + k 0.5625 MHz, L2 = 1246 + k
 0.4375 MHz (GLONASS ICD 2008 ed. 5.1, 3.3.1.4; from memory, values and section).
 f_L1 / f_L2 = 9/7 for every k."""
 
+FDMA_BANDS_HZ = {"R": GLONASS_FDMA_HZ}
+"""Systems whose carriers in some bands depend on the satellite's frequency channel, by letter."""
+
 
 def _by(attribute: str) -> dict:
     table: dict = {}
@@ -105,7 +108,7 @@ def frequency_hz(system: str, code: str) -> float:
     """Carrier frequency of an observation code (``C1C``; RINEX 2 ``C1``/``P2`` map to bands 1/2).
     GLONASS FDMA: the channel-0 carrier (only the ratio f1/f2 = 9/7 is channel-free)."""
     band = code[1]
-    if system == "R" and band in GLONASS_FDMA_HZ:
+    if band in FDMA_BANDS_HZ.get(system, {}):
         return float(glonass_frequency_hz(band, 0))
     try:
         return RINEX_BAND_HZ[system][band]

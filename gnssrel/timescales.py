@@ -70,18 +70,19 @@ def as_datetime64(t) -> np.ndarray:
         raise TimeScaleError(f"not a time: {t!r}") from None
 
 
+def _leap_seconds(t, starts: np.ndarray) -> np.ndarray:
+    idx = np.searchsorted(starts, as_datetime64(t), side="right") - 1
+    return np.where(idx >= 0, _LEAP_VALUE_S[np.clip(idx, 0, None)], 0)
+
+
 def leap_seconds_gpst(t_gpst) -> np.ndarray:
     """GPST - UTC in seconds (int64) at GPST times ``t_gpst`` (built-in table)."""
-    t = as_datetime64(t_gpst)
-    idx = np.searchsorted(_LEAP_START_GPST, t, side="right") - 1
-    return np.where(idx >= 0, _LEAP_VALUE_S[np.clip(idx, 0, None)], 0)
+    return _leap_seconds(t_gpst, _LEAP_START_GPST)
 
 
 def leap_seconds_utc(t_utc) -> np.ndarray:
     """GPST - UTC in seconds (int64) at UTC times ``t_utc`` (built-in table)."""
-    t = as_datetime64(t_utc)
-    idx = np.searchsorted(_LEAP_START_UTC, t, side="right") - 1
-    return np.where(idx >= 0, _LEAP_VALUE_S[np.clip(idx, 0, None)], 0)
+    return _leap_seconds(t_utc, _LEAP_START_UTC)
 
 
 def _check_scale(scale: str) -> str:
@@ -239,5 +240,5 @@ def check_leap_seconds(value: int, near_gpst=None) -> str | None:
         t = np.datetime64(near_gpst, "ns")
         if value != expected and t <= LEAP_TABLE_VALID_UNTIL:
             return (f"LEAP SECONDS {value} disagrees with the built-in table ({expected} s at "
-                    f"{str(t.astype('datetime64[s]'))} GPST)")
+                    f"{t.astype('datetime64[s]')!s} GPST)")
     return None

@@ -1,5 +1,5 @@
 """Every summary carries one balanced ledger: each record and observation read is used or
-dropped with a counted reason (issue 9, the promise, point 1).
+dropped with a counted reason (README, "Nothing lost, nothing silently wrong", point 1).
 
 Expected counts on the demo data are the code's own earlier output (regression), checked
 for consistency with the scenario (sample_logs/README.md: 3 h at 30 s, 24 GPS, 18 Galileo,
@@ -20,7 +20,8 @@ from conftest import refdata_file
 
 from gnssrel.accounting import Ledger
 from gnssrel.cli import main
-from gnssrel.jobs import accounting, common
+from gnssrel.orbits.spans import navigation_span
+from gnssrel.pipeline import accounting
 
 LOGS = Path(__file__).resolve().parents[1] / "sample_logs"
 NAV = str(LOGS / "KVRP00ZZZ_R_20251621000_03H_MN.rnx")
@@ -137,11 +138,11 @@ def test_default_window_comes_from_the_bulk_of_the_records():
     garbled = np.datetime64("2021-11-10T00:00", "ns")                # one record with a wrong week
     table = pd.DataFrame({"sv": "G01", "toe": np.append(refs, garbled)})
     nav = SimpleNamespace(ephemerides={"G": table}, header={}, path="x.rnx")
-    assert common.navigation_span(nav, "G") == (refs.min(), refs.max())
+    assert navigation_span(nav, "G") == (refs.min(), refs.max())
     # a daily file's records of 00:00 the next day still belong to the span
     nxt = pd.DataFrame({"sv": "G02", "toe": [day + np.timedelta64(1, "D")]})
     nav.ephemerides["G"] = pd.concat([table, nxt], ignore_index=True)
-    assert common.navigation_span(nav, "G")[1] == day + np.timedelta64(1, "D")
+    assert navigation_span(nav, "G")[1] == day + np.timedelta64(1, "D")
 
 
 @pytest.mark.refdata

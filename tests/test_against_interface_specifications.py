@@ -1,32 +1,17 @@
-"""Per-system constants against the interface specifications (REFERENCE-CHECKS E4, E5, E7)."""
+"""Per-system constants against the interface specifications, and the orbit algorithm's use of them.
+
+The values of F, L_G and the factory frequency offset are checked once, in
+test_against_published_values.py (REFERENCE-CHECKS E1, E4, E5, E7); this file checks that
+every system has its own constants and that the orbit algorithm takes the right one.
+"""
 
 import math
 
+import numpy as np
 import pytest
 
 from gnssrel import constants as k
-
-
-def test_f_constant_gps_is_published_value():
-    # IS-GPS-200 20.3.3.3.3.1 prints F = -4.442807633e-10 s/m^0.5 (published)
-    assert k.GPS.f_s_sqrt_m == pytest.approx(-4.442807633e-10, abs=5e-19)
-
-
-@pytest.mark.parametrize("system", [k.GALILEO, k.BEIDOU])
-def test_f_constant_galileo_beidou(system):
-    # mu = 3.986004418e14 (Galileo OS SIS ICD 5.1.1, BDS-SIS-ICD 5.2.4); F derived = -4.442807309e-10
-    assert system.f_s_sqrt_m == pytest.approx(-4.442807309e-10, abs=5e-19)
-
-
-def test_geoid_rate_constant():
-    # IERS Conventions 2010 Table 1.1: L_G = 6.969290134e-10 and W0 = 62 636 856.0 m^2/s^2 (published)
-    assert k.W0_M2_S2 / k.C_M_S**2 == pytest.approx(k.L_G, abs=1e-18)
-
-
-def test_factory_frequency_offset():
-    # IS-GPS-200 3.3.1.1: 10.23 MHz x (1 - 4.4647e-10) = 10.22999999543 MHz (published)
-    f = k.GPS_FUNDAMENTAL_FREQUENCY_HZ * (1 + k.GPS_FACTORY_FREQUENCY_OFFSET)
-    assert f == pytest.approx(10.2299999954326e6, abs=1e-7)
+from gnssrel.orbits.keplerian import kepler_states
 
 
 def test_every_system_has_a_source_and_own_time_scale():
@@ -36,3 +21,28 @@ def test_every_system_has_a_source_and_own_time_scale():
     for s in k.SYSTEMS.values():
         assert s.source and 3.9e14 < s.gm_m3_s2 < 4.0e14
         assert math.isclose(s.omega_earth_rad_s, 7.2921e-5, rel_tol=1e-5)
+
+
+@pytest.mark.parametrize("system, mu", [
+    ("G", 3.986005e14),      # IS-GPS-200 Table 20-IV (REFERENCE-CHECKS 1.1; published)
+    ("J", 3.986005e14),      # IS-QZSS-PNT: the GPS constants (REFERENCE-CHECKS 2; from memory)
+    ("E", 3.986004418e14),   # Galileo OS SIS ICD 5.1.1 (REFERENCE-CHECKS 2; from memory)
+    ("C", 3.986004418e14),   # BDS-SIS-ICD 3.2, CGCS2000, a MEO satellite (REFERENCE-CHECKS 2; published)
+])
+def test_mean_motion_takes_the_system_mu(system, mu):
+    # Table 20-IV steps 1-6 by hand: with e = 0, M0 = 0 and delta n = 0, E_k = M_k = sqrt(mu/A^3) t_k.
+    # One day after toe the GPS and Galileo mu (relative difference 1.46e-9) move E_k by
+    # 12.6 rad x 7.3e-10 = 9.2e-9 rad (0.24 m along the orbit): 9 000 times the tolerance.
+    sqrt_a, tk = 5153.8, 86_400.0
+    toe = np.datetime64("2020-06-25T00:00:00", "ns")
+    elements = {name: np.array([0.0]) for name in ("delta_n_rad_per_s", "mean_anomaly_rad", "eccentricity",
+                                                    "perigee_argument_rad", "cuc_rad", "cus_rad", "crc_m",
+                                                    "crs_m", "cic_rad", "cis_rad", "inclination_rad",
+                                                    "idot_rad_per_s", "omega0_rad", "omega_dot_rad_per_s")}
+    elements.update(toe=np.array([toe]), sqrt_a_sqrt_m=np.array([sqrt_a]), toe_sow_s=np.array([345_600.0]))
+    state = kepler_states(elements, np.array([toe + np.timedelta64(86_400, "s")]), system)
+    expected = math.sqrt(mu / sqrt_a**6) * tk
+    difference = np.angle(np.exp(1j * (state["eccentric_anomaly_rad"][0] - expected)))
+    assert abs(difference) < 1e-12
+    # and the orbit radius is A itself (circular orbit, no corrections)
+    assert np.linalg.norm(state["position_ecef_m"][0]) == pytest.approx(sqrt_a**2, abs=1e-6)

@@ -16,7 +16,7 @@ NAV = "2024-124/NYA100NOR_S_20241240000_01D_GN.rnx.gz"
 @pytest.mark.parametrize("extra, message", [
     (["--position", "1,2"], "--position"),
     (["--position", "0,0,0"], "--position"),
-    (["--precise", str(SAMPLE_LOGS / "KVA0DEMFIN_20251621000_03H_30S_CLK.CLK")], "--precise: give at least one SP3"),
+    (["--precise", str(SAMPLE_LOGS / "KVA0DEMFIN_20251621000_03H_30S_CLK.CLK")], "not SP3: give at least one SP3"),
     (["--output", "table.xlsx"], "unknown output format"),
 ])
 def test_bad_options_exit_2_with_one_line(tmp_path, capsys, extra, message):
@@ -29,7 +29,6 @@ def test_bad_options_exit_2_with_one_line(tmp_path, capsys, extra, message):
 
 
 def test_summary_keys_and_outputs_on_real_log(tmp_path, capsys):
-    pytest.importorskip("gnssrel.io.rinex_obs", reason="the fast observation reader is not available")
     summary_path, table, positions = tmp_path / "s.json", tmp_path / "c.csv", tmp_path / "p.csv"
     code = main(["audit", str(refdata_file(OBS)), str(refdata_file(NAV)), "--systems", "G",
                  "--start", "2024-05-03T06:00:00 GPST", "--end", "2024-05-03T09:00:00 GPST", "--step", "300",
@@ -89,7 +88,6 @@ def test_demo_scenario_verdicts(capsys, receiver, hypothesis, clock_status, prod
 
 @pytest.mark.refdata
 def test_glonass_on_a_rinex_4_log(capsys):
-    pytest.importorskip("gnssrel.io.rinex_obs", reason="the fast observation reader is not available")
     obs = refdata_file("2022-159/KMS300DNK_R_20221591000_01H_30S_MO.crx")
     nav = refdata_file("2022-159/KMS300DNK_R_20221591000_01H_MN.rnx.gz")
     assert main(["audit", str(obs), str(nav), "--systems", "R", "--json"]) == 0

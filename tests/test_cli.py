@@ -22,7 +22,7 @@ def test_python_dash_m_entry_point():
     assert r.returncode == 0 and r.stdout.startswith("gnssrel ")
 
 
-# The shared option builders and formatters of gnssrel/jobs/common.py: every command reads the same.
+# The shared option builders (gnssrel/jobs/common.py) and formatters (gnssrel/text.py): every command reads the same.
 
 import argparse
 
@@ -30,7 +30,7 @@ import numpy as np
 import pytest
 
 from gnssrel.cli import build_parser
-from gnssrel.jobs import common
+from gnssrel.text import fmt, fmt_k, fmt_sigma, fmt_span, text_table
 
 
 def _options(parser):
@@ -52,24 +52,24 @@ def test_shared_options_have_the_same_help_in_every_command():
 @pytest.mark.parametrize("sigma, text", [(0.0934, "0.093"), (2.791e-06, "< 0.001"), (0.0, "< 0.001"),
                                          (float("nan"), "-"), (None, "-")])
 def test_sigma_never_prints_as_zero(sigma, text):
-    assert common.fmt_sigma(sigma) == text
+    assert fmt_sigma(sigma) == text
 
 
 def test_fitted_factor_text_has_no_negative_zero_and_no_nan():
-    assert common.fmt_k(-3.4e-07, 5.9e-07) == "0.000 (σ < 0.001)"
-    assert common.fmt_k(1.0951, 0.0934) == "1.095 ± 0.093"
-    assert common.fmt_k(0.0, float("nan")) == "0.000 (σ -)"
-    assert common.fmt(-0.0001, ".3f") == "0.000" and common.fmt(-0.002, ".3f") == "-0.002"
+    assert fmt_k(-3.4e-07, 5.9e-07) == "0.000 (σ < 0.001)"
+    assert fmt_k(1.0951, 0.0934) == "1.095 ± 0.093"
+    assert fmt_k(0.0, float("nan")) == "0.000 (σ -)"
+    assert fmt(-0.0001, ".3f") == "0.000" and fmt(-0.002, ".3f") == "-0.002"
 
 
 def test_span_and_times_print_to_the_second_with_the_scale():
     t0, t1 = np.datetime64("2020-06-25T06:00:00", "ns"), np.datetime64("2020-06-25T08:00:00", "ns")
-    assert common.fmt_span(t0, t1) == "2020-06-25 06:00:00 to 08:00:00 GPST"
-    assert ".000000000" not in common.fmt_span(t0, t1 + np.timedelta64(1, "D"))
+    assert fmt_span(t0, t1) == "2020-06-25 06:00:00 to 08:00:00 GPST"
+    assert ".000000000" not in fmt_span(t0, t1 + np.timedelta64(1, "D"))
 
 
 def test_text_table_aligns_numbers_right_and_words_left():
-    lines = common.text_table(("system", "k", "status"),
+    lines = text_table(("system", "k", "status"),
                               [("G GPS", "1.095", "consistent"), ("E Galileo", "-1.701", "undetermined")]).splitlines()
     assert lines[1].index("1.095") + 5 == lines[2].index("-1.701") + 6          # right edges line up
     assert lines[1].index("consistent") == lines[2].index("undetermined")      # left edges line up

@@ -1,5 +1,5 @@
 """Inputs that do not belong together, absurd windows and broken pipes: one line naming the
-file and the real cause, exit 2 (or the pipe's code), never a traceback (issue 9, points 2-4).
+file and the real cause, exit 2 (or the pipe's code), never a traceback (README, "Nothing lost, nothing silently wrong").
 
 Inputs are cut from the invented demo data in sample_logs/ and changed in the test.
 """

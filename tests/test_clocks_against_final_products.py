@@ -1,11 +1,14 @@
 """Broadcast clocks of MOJN 2020-06-25 against the GRG final clocks (SP3 and 30 s CLK).
 
-Reference values: the independent computation of REFERENCE-CHECKS section 11 and
-issue 4 (status: derived by an independent program on the same files; GPS 0.64 ns
-with a plain per-epoch median datum, 0.48 ns with the robust one; Galileo 0.36 ns;
-GLONASS 3.1 ns; GLONASS raw fit k = -1.00 +- 0.07).  IGS/GRG clocks exclude the
-periodic term like the broadcast polynomial (refdata README; REFERENCE-CHECKS 4.1,
-Kouba 2009, from memory, and section 11, measured).
+Reference values: the independent computation of REFERENCE-CHECKS section 11 (GPS
+0.64 ns with a plain per-epoch median datum; derived by an independent program on the
+same files), and the same computation's further figures, not printed there (GPS 0.48 ns
+with the robust datum, Galileo 0.36 ns, GLONASS 3.1 ns, GLONASS raw fit k = -1.00 +- 0.07).
+Measured here (median over satellites of the per-satellite scatter, SP3 / 30-s CLK at
+5 min): GPS 0.485 / 0.482 ns, Galileo 0.324 / 0.325 ns, GLONASS 1.61 / 1.60 ns.  The bounds
+sit 25 % above the measured figures (regression values): a factor of two fails.
+IGS/GRG clocks exclude the periodic term like the broadcast polynomial (refdata README;
+REFERENCE-CHECKS 4.1, Kouba 2009, from memory, and section 11, measured).
 """
 
 from __future__ import annotations
@@ -15,7 +18,7 @@ import pytest
 import xarray as xr
 from conftest import refdata_file
 
-from gnssrel.clocks.compare import compare_clocks, periodic_term_s
+from gnssrel.clocks.compare import compare_clocks
 from gnssrel.errors import NoDataError
 
 pytestmark = pytest.mark.refdata
@@ -55,7 +58,7 @@ def test_gps_matches_final_clocks_and_excludes_the_periodic_term(which, sp3_resu
     _, summary = sp3_result if which == "sp3" else clk_result
     gps = summary["by_system"]["G"]
     assert gps["n_sat"] == 30
-    assert gps["median_std_ns"] <= 1.0           # issue 4 acceptance (independent: 0.48 ns robust)
+    assert gps["median_std_ns"] <= 0.6            # measured 0.485 / 0.482 (independent: 0.48 ns robust)
     assert abs(gps["convention_k"]) <= 0.05
     assert gps["convention"] == "excludes-periodic"
     assert gps["convention_k_sigma"] > gps["convention_k_sigma_formal"]   # the honest sigma is larger
@@ -65,7 +68,7 @@ def test_gps_matches_final_clocks_and_excludes_the_periodic_term(which, sp3_resu
 def test_galileo_matches_final_clocks(which, sp3_result, clk_result):
     _, summary = sp3_result if which == "sp3" else clk_result
     gal = summary["by_system"]["E"]
-    assert gal["median_std_ns"] <= 0.7            # issue 4 (independent: 0.36 ns)
+    assert gal["median_std_ns"] <= 0.4            # measured 0.324 / 0.325 (independent: 0.36 ns)
     assert gal["convention"] == "excludes-periodic"
 
 
@@ -74,7 +77,7 @@ def test_glonass_excludes_the_term_once_its_broadcast_convention_is_accounted_fo
                                                                                  clk_result):
     _, summary = sp3_result if which == "sp3" else clk_result
     glo = summary["by_system"]["R"]
-    assert glo["median_std_ns"] <= 4.0            # issue 4 (independent: 3.1 ns)
+    assert glo["median_std_ns"] <= 2.0            # measured 1.61 / 1.60 (independent: 3.1 ns)
     assert glo["convention"] == "excludes-periodic"
     assert glo["polynomial_holds_periodic"] is True
     # Against the raw GLONASS terms the same clocks look reversed (independent: -1.00 +- 0.07).
@@ -102,23 +105,36 @@ def test_summary_has_the_contract_keys(sp3_result):
     assert "ionosphere-free" in summary["by_system"]["G"]["broadcast_clock_refers_to"]
 
 
+# F = -2 sqrt(mu) / c^2 per system, written out here rather than taken from the package:
+# GPS IS-GPS-200 20.3.3.3.3.1 prints -4.442807633e-10 s/m^0.5 (published, REFERENCE-CHECKS E4);
+# Galileo -2 sqrt(3.986004418e14) / c^2 = -4.442807309e-10 (derived, REFERENCE-CHECKS E5).
+F_S_PER_SQRT_M = {"G": -4.442807633e-10, "E": -4.442807309e-10}
+
+
 def _with_term(sp3, nav, sign):
-    """The GRG clocks with sign x dtr added (dtr from the broadcast elements/state)."""
+    """The GRG clocks with sign x dt_r added, dt_r = F e sqrt(A) sin E_k (IS-GPS-200 20.3.3.3.3.1,
+    the same form in the Galileo OS SIS ICD) written out here from the broadcast elements of the
+    record in use (e, sqrt A) and its eccentric anomaly E_k: nothing of the package's own
+    periodic-term code, so a sign error there makes the fit give -sign."""
     from gnssrel.orbits.broadcast import broadcast_states
 
     # Unhealthy records included: the eccentric Galileo E14/E18 (e ~ 0.16) pin k for Galileo,
     # whose healthy satellites (e < 0.001) give sigma ~ 0.15 alone.
-    states = broadcast_states(nav, sp3["time"].values, systems="GER", include_unhealthy=True)
+    states = broadcast_states(nav, sp3["time"].values, systems="GE", include_unhealthy=True)
     sv = np.intersect1d(sp3["sv"].values.astype(str), states["sv"].values.astype(str))
     states = states.sel(sv=sv)
-    dtr, _ = periodic_term_s(states, np.array([s[0] for s in sv]))
+    f = np.array([F_S_PER_SQRT_M[s[0]] for s in sv])
+    dtr = (f * states["eccentricity"].values * states["sqrt_a_sqrt_m"].values
+           * np.sin(states["eccentric_anomaly_rad"].values))
+    assert np.nanmax(np.abs(dtr)) > 300e-9          # E14/E18: ~392 ns (REFERENCE-CHECKS 11 day, measured)
     clock = sp3["clock_s"].sel(sv=sv).values + sign * dtr
     return xr.Dataset({"clock_s": (("time", "sv"), clock)}, coords={"time": sp3["time"].values, "sv": sv}), states
 
 
 @pytest.mark.parametrize("sign, verdict", [(1.0, "includes-periodic"), (-1.0, "reversed-periodic")])
 def test_final_clocks_with_the_term_added_give_k_of_its_sign(nav, sp3, sign, verdict):
-    # Issue 4 synthetic acceptance: the same precise clocks + dtr give k = 1 +- 0.05, with -dtr k = -1 +- 0.05.
+    # The same precise clocks + dt_r must give k = 1 +- 0.05 and with -dt_r k = -1 +- 0.05: the
+    # fit recovers a term it did not compute (the measured k without it is 0.00 +- 0.005 for GPS).
     clocks, states = _with_term(sp3, nav, sign)
     _, summary = compare_clocks(nav, clocks, states=states)
     for letter in "GE":
@@ -206,18 +222,3 @@ def test_group_delays_move_the_clock_to_one_signal():
     assert POLYNOMIAL_HOLDS_PERIODIC == {"G": False, "E": False, "C": False, "J": False, "R": True}
     with pytest.raises(KeyError, match="known"):
         single_frequency_clock_s(clock, table, [0], "G", "LNAV", "L5")
-
-
-def test_polynomial_agrees_with_the_state_builder(nav, sp3):
-    from gnssrel.clocks.broadcast import broadcast_clock_s
-    from gnssrel.orbits.broadcast import broadcast_states
-
-    states = broadcast_states(nav, sp3["time"].values, systems="GER")
-    for letter in "GER":
-        cols = np.array([s.startswith(letter) for s in states["sv"].values.astype(str)])
-        rows = states["ephemeris_row"].values[:, cols]
-        mine = broadcast_clock_s(nav.ephemerides[letter], rows, states["time"].values[:, None], letter)
-        theirs = states["clock_poly_s"].values[:, cols]
-        ok = np.isfinite(theirs)
-        assert ok.sum() > 500
-        np.testing.assert_allclose(mine[ok], theirs[ok], rtol=0, atol=1e-15)

@@ -1,6 +1,6 @@
 """`gnssrel clocks` on the command line: outputs and contract keys on real data; bad input
-gives one line and exit 2.  Reference figures: issue 4 / REFERENCE-CHECKS 11 (independent
-computation on the same files)."""
+gives one line and exit 2.  Reference figures: REFERENCE-CHECKS 11 (independent computation on
+the same files) and the measured figures of test_clocks_against_final_products.py."""
 
 from __future__ import annotations
 
@@ -54,7 +54,7 @@ def test_clock_file_is_told_from_sp3_by_content(tmp_path, capsys):
     assert summary["by_system"]["G"]["convention"] == "excludes-periodic"
     # Six hours of healthy Galileo satellites (e < 0.001, terms < 1.5 ns): with the old 1-h record
     # window (19 satellites) the fit could not tell the conventions apart (k sigma 2.1, "undetermined");
-    # the post rule of issue 9 (the default) keeps 21 satellites and more epochs of each, and the fit
+    # the post rule (the default; gnssrel/orbits/selection.py) keeps 21 satellites and more epochs of each, and the fit
     # finds what the GRG clocks are (refdata README): k = -0.27 +- 0.20 (measured), excludes-periodic.
     gal = summary["by_system"]["E"]
     assert gal["median_std_ns"] <= 0.7

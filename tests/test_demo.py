@@ -7,6 +7,8 @@ scenario's own truth: how the simulator built each receiver's firmware outputs).
 
 from __future__ import annotations
 
+import contextlib
+import io
 import json
 
 import pytest
@@ -21,14 +23,16 @@ def demo_run(tmp_path_factory):
         pytest.skip("sample_logs/ is not in this checkout")
     out = tmp_path_factory.mktemp("demo") / "gnssrel-demo"
     plots = out.parent / "plots"
-    assert main(["demo", "--output", str(out), "--logs", str(SAMPLE_LOGS), "--plots", str(plots), "-q"]) == 0
-    return out, plots, json.loads((out / "summary.json").read_text())
+    printed = io.StringIO()
+    with contextlib.redirect_stdout(printed):       # one demo run serves every test below
+        assert main(["demo", "--output", str(out), "--logs", str(SAMPLE_LOGS), "--plots", str(plots)]) == 0
+    return out, plots, json.loads((out / "summary.json").read_text()), printed.getvalue()
 
 
 def test_demo_summary_and_report_carry_a_balanced_accounting(demo_run):
     from gnssrel.accounting import Ledger
 
-    out, _, summary = demo_run
+    out, _, summary, _ = demo_run
     ledger = Ledger.from_dict(summary["accounting"])
     assert ledger.unbalanced() == []
     assert set(ledger.counts) >= {"navigation_records", "sp3_records", "clock_records", "observations",
@@ -42,7 +46,7 @@ def test_demo_summary_and_report_carry_a_balanced_accounting(demo_run):
 
 
 def test_demo_finds_the_faulty_receiver_and_the_fault(demo_run):
-    _, _, summary = demo_run
+    _, _, summary, _ = demo_run
     manifest = json.loads((SAMPLE_LOGS / "scenario.json").read_text())
     receivers = summary["receivers"]
     assert set(receivers) == {r["marker"] for r in manifest["receivers"]}
@@ -65,7 +69,7 @@ def test_demo_finds_the_faulty_receiver_and_the_fault(demo_run):
 
 
 def test_demo_writes_the_report_and_the_plots(demo_run):
-    out, plots, summary = demo_run
+    out, plots, summary, _ = demo_run
     assert (out / "report.html").stat().st_size > 500_000
     pngs = sorted(p.name for p in plots.glob("*.png"))
     assert pngs == sorted(p.name for p in out.glob("*.png")) and len(pngs) == 7
@@ -73,12 +77,9 @@ def test_demo_writes_the_report_and_the_plots(demo_run):
         "excludes-periodic"
 
 
-def test_demo_prints_where_the_report_is_and_what_it_found(tmp_path, capsys):
-    if not (SAMPLE_LOGS / "scenario.json").exists():
-        pytest.skip("sample_logs/ is not in this checkout")
-    assert main(["demo", "--output", str(tmp_path / "d"), "--logs", str(SAMPLE_LOGS)]) == 0
-    out = capsys.readouterr().out
-    assert f"report: {tmp_path / 'd' / 'report.html'}" in out
+def test_demo_prints_where_the_report_is_and_what_it_found(demo_run):
+    folder, _, _, out = demo_run
+    assert f"report: {folder / 'report.html'}" in out
     assert "SLMB: firmware omits the periodic relativistic term" in out
     assert "KVRP: firmware consistent with the specifications" in out
 

@@ -71,7 +71,9 @@ def test_consecutive_records_meet_halfway(records):
     forward = glonass_states({k: v[first] for k, v in cols.items()}, mid)
     backward = glonass_states({k: v[second] for k, v in cols.items()}, mid)
     gap = np.linalg.norm(forward["position_ecef_m"] - backward["position_ecef_m"], axis=1)
-    assert np.median(gap) < 5.0 and np.max(gap) < 25.0
+    # measured on MOJN 2020-177 (398 pairs): median 0.89 m, worst 3.32 m (regression, ~35 % margin;
+    # RK4 is converged to a millimetre, so the gap is the records' own disagreement)
+    assert np.median(gap) < 1.2 and np.max(gap) < 4.5
     assert np.max(np.abs(forward["tk_s"] - 900.0)) == 0.0
     # osculating inclination of GLONASS orbits: 64.8 deg nominal, the real planes spread by
     # about a degree (GLONASS ICD 3.1, from memory)

@@ -1,4 +1,4 @@
-"""A fixed, fast subset of the hostile-input campaign (issue 9, Acceptance).
+"""A fixed, fast subset of the hostile-input campaign (DEVELOPERS.md, "Hostile inputs").
 
 Damaged copies of the invented demo data (tests/hostile: seeds cut from
 sample_logs/, RINEX 2.11 texts derived from them) go through orbits,

@@ -1,11 +1,15 @@
 """Broadcast orbits (MOJN nav, 2020-06-25) against the GRG final multi-GNSS orbits (SP3, 15 min).
 
-Acceptance figures of issue 2; expected values from a first independent
-computation on the same files (REFERENCE-CHECKS 11: GPS median 1.36 m, max
-2.24 m, 30 satellites, no antenna-offset correction; Galileo ~1.0 m with
-records within 1 h of toe; GLONASS 2.8 m).  Status: derived (independent
-computation on the same data).  The GRG product holds G, E and R only, so
-BeiDou is not compared here.
+Expected values: REFERENCE-CHECKS 11 (an independent computation on the same files:
+GPS median 1.36 m, max 2.24 m, 30 satellites, no antenna-offset correction; derived),
+and for Galileo and GLONASS this code's own figures under the default ("post") record
+rule (median over satellites of the per-satellite 3-D RMS: GPS 1.359 m, Galileo 0.877 m,
+GLONASS 2.833 m; the measurement table in gnssrel/orbits/selection.py; regression values).
+Context (REFERENCE-CHECKS 9): GLONASS broadcast orbits ~3 m (NAVI, published); broadcast vs SP3
+within ~2 m RMS per axis (its suggested tolerance, judgement).
+Bounds sit about 15 % from the measured figures: wide enough for a change of the record
+rule, narrow enough that a factor of two (a wrong constant, a lost correction) fails.
+The GRG product holds G, E and R only, so BeiDou is not compared here.
 """
 
 from __future__ import annotations
@@ -44,10 +48,10 @@ def test_acceptance_figures_per_system(inputs):
     _, summary = _compare(inputs)
     g, e, r = (summary["by_system"][s] for s in "GER")
     assert g["n_sat"] == 30
-    assert 1.0 < g["median_rms_3d_m"] <= 2.0 and g["max_rms_3d_m"] <= 3.5      # measured 1.36 / 2.20
-    assert abs(g["median_rms_3d_m"] - 1.36) < 0.15                              # independent: 1.36
-    assert 0.5 < e["median_rms_3d_m"] <= 2.0                                     # measured 0.88
-    assert 1.5 < r["median_rms_3d_m"] <= 4.0                                     # measured 2.84
+    assert abs(g["median_rms_3d_m"] - 1.36) < 0.15       # independent 1.36 (derived); measured 1.359
+    assert 1.9 < g["max_rms_3d_m"] <= 2.6                 # independent 2.24 (derived); measured 2.234
+    assert abs(e["median_rms_3d_m"] - 0.877) < 0.13       # measured 0.877 (regression, +-15 %)
+    assert abs(r["median_rms_3d_m"] - 2.833) < 0.4        # measured 2.833 (regression, +-14 %)
     assert "C" not in summary["by_system"]
 
 
@@ -87,4 +91,5 @@ def test_glonass_positions_per_satellite(inputs):
     table, _ = _compare(inputs)
     glo = table[(table.system == "R") & (table.n_epochs > 0)]
     assert len(glo) >= 20
-    assert glo["rms_3d_m"].max() < 8.0   # broadcast GLONASS ~3 m (NAVI, published), worst a few x that
+    # broadcast GLONASS ~3 m (NAVI, published); measured worst satellite 5.59 m (regression, +16 %)
+    assert glo["rms_3d_m"].max() < 6.5

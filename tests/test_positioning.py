@@ -111,6 +111,7 @@ def test_too_few_satellites_gives_nan_not_an_error():
     assert pos[["x_m", "y_m", "z_m"]].isna().all().all()
 
 
+@pytest.mark.refdata
 def test_a_system_without_navigation_records_does_not_void_the_fixes(refdata):
     # NYA1 2024-05-03 observed GPS + Galileo, given only the GPS navigation file: Galileo has no
     # satellite states, so it must simply drop out (it used to make every epoch singular).
@@ -123,4 +124,6 @@ def test_a_system_without_navigation_records_does_not_void_the_fixes(refdata):
     nav = gnssrel.read_navigation(refdata("2024-124/NYA100NOR_S_20241240000_01D_GN.rnx.gz"))
     summary = audit_summary(audit_log(obs, nav))
     assert summary["position"]["n_epochs_solved"] == obs.sizes["time"]
-    assert summary["position"]["median_error_3d_m"] < 4.0   # issue 5 target for NYA1 (header position)
+    # the independent computation of test_audit_on_real_log.py: 2.3 m against the header position,
+    # itself good to a few metres only (refdata README)
+    assert summary["position"]["median_error_3d_m"] < 4.0

@@ -12,7 +12,7 @@ from gnssrel.clocks.interpolation import interpolate_clock
 from gnssrel.constants import GM_EARTH_IERS_M3_S2, GPS_NOMINAL_SEMI_MAJOR_AXIS_M, OMEGA_EARTH_IERS_RAD_S
 from gnssrel.io.rinex_clock import read_rinex_clock
 from gnssrel.io.sp3 import read_sp3
-from gnssrel.orbits.precise import STATUS_CODES, lagrange_weights, precise_states
+from gnssrel.orbits.precise import STATUS_CODES, STATUS_GAP, STATUS_OUTSIDE, lagrange_weights, precise_states
 from gnssrel.timescales import seconds_between
 
 DAY_176 = "2020-177/GRG0MGXFIN_20201760000_01D_15M_ORB.SP3.gz"
@@ -182,7 +182,7 @@ def test_missing_sample_gives_gap_status(two_days):
     states = precise_states(ds, targets)
     first = states["status"].values[:, 0]
     # a 10-point window reaches 4-5 samples either side of the target
-    assert first.tolist() == [0, 5, 5, 5, 0]
+    assert first.tolist() == [0, STATUS_GAP, STATUS_GAP, STATUS_GAP, 0]
     assert np.isnan(states["position_ecef_m"].values[1:4, 0]).all()
     assert (states["status"].values[:, 1:] == 0).all()
     assert states["status"].attrs["status_codes"] == STATUS_CODES
@@ -195,7 +195,8 @@ def test_missing_epochs_and_outside(two_days):
     targets = np.array([t0, t0 + np.timedelta64(20, "h"), two_days["time"].values[0] - np.timedelta64(1, "s"),
                         two_days["time"].values[-1] + np.timedelta64(1, "s")])
     states = precise_states(ds, targets, svs=["G05", "E11", "C20"])
-    assert states["status"].values.tolist() == [[5, 5, 4], [0, 0, 4], [4, 4, 4], [4, 4, 4]]
+    gap, out = STATUS_GAP, STATUS_OUTSIDE
+    assert states["status"].values.tolist() == [[gap, gap, out], [0, 0, out], [out, out, out], [out, out, out]]
     assert np.isnan(states["clock_s"].values[0]).all()
     assert np.isfinite(states["clock_s"].values[1, :2]).all()
 

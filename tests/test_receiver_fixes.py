@@ -6,8 +6,8 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from gnssrel.audit import firmware
 from gnssrel.accounting import Ledger
+from gnssrel.audit import firmware
 from gnssrel.errors import FileFormatError
 from gnssrel.geodesy import geodetic_to_ecef
 from gnssrel.io.receiver_fixes import read_fixes_csv, read_nmea_gga, read_receiver_fixes
@@ -114,7 +114,7 @@ def test_firmware_verdict_picks_the_closest_hypothesis():
     assert same["verdict"].startswith("undetermined")
 
 
-# ---- damaged sentences and rows cost that fix only (issue 9) -----------------------------------------
+# ---- damaged sentences and rows cost that fix only (README, "Nothing lost") --------------------------------
 
 ZDA = "GPZDA,123500.00,03,05,2024,00,00"
 GOOD_GGA = "GPGGA,123519,4807.038,N,01131.000,E,1,08,0.9,545.4,M,46.9,M,,"

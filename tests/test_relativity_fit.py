@@ -68,6 +68,76 @@ def test_outliers_are_rejected_and_counted():
     assert fit["k"] == pytest.approx(1.0, abs=0.05)
 
 
+def _dense_reference(y, x, epoch, sv):
+    """k, formal sigma, RMS and jackknife sigma of y = -k x + b[epoch] + o[sv] by one dense
+    least-squares solve with every epoch and satellite column (no elimination, no rejection)."""
+    def solve(mask):
+        _, e = np.unique(epoch[mask], return_inverse=True)
+        _, s = np.unique(sv[mask], return_inverse=True)
+        n = mask.sum()
+        design = np.zeros((n, 1 + e.max() + 1 + s.max() + 1))
+        design[:, 0] = -x[mask]
+        design[np.arange(n), 1 + e] = 1.0
+        design[np.arange(n), 2 + e.max() + s] = 1.0
+        beta, *_ = np.linalg.lstsq(design, y[mask], rcond=None)
+        resid = y[mask] - design @ beta
+        dof = n - (e.max() + 1) - (s.max() + 1)
+        formal = np.sqrt(resid @ resid / dof * np.linalg.pinv(design.T @ design)[0, 0])
+        return beta[0], formal, np.sqrt(np.mean(resid**2))
+
+    k, formal, rms = solve(np.ones(y.size, bool))
+    names = np.unique(sv)
+    ks = np.array([solve(sv != name)[0] for name in names])
+    sigma = np.sqrt((names.size - 1) / names.size * np.sum((ks - ks.mean()) ** 2))
+    return k, formal, rms, sigma
+
+
+def test_normal_equations_match_a_dense_solve():
+    # The fit eliminates the epoch and satellite effects from sums per (epoch, satellite) cell
+    # (module text); a small problem solved densely with all columns must give the same figures.
+    y, x, e, s = _synthetic(1.0, seed=5, n_epoch=90, n_sat=8, visible=5)
+    fit = fit_periodic_factor(y, x, e, s, reject_sigma=1e9)
+    k, formal, rms, sigma = _dense_reference(y, x, e, s)
+    assert fit["n_rejected"] == 0
+    assert fit["k"] == pytest.approx(k, rel=1e-10)
+    assert fit["sigma_formal"] == pytest.approx(formal, rel=1e-10)
+    assert fit["rms_fit_m"] == pytest.approx(rms, rel=1e-10)
+    assert fit["sigma"] == pytest.approx(sigma, rel=1e-10)
+    assert fit["n_sat"] == 8 and fit["n_epochs"] == np.unique(e).size
+    # A receiver clock offset of 1 ms (300 km in y) is an epoch effect: nothing changes, to the
+    # precision of the data (the cell sums are taken after centring on the epoch means).
+    shifted = fit_periodic_factor(y + 3.0e5, x, e, s, reject_sigma=1e9)
+    assert shifted["k"] == pytest.approx(fit["k"], rel=1e-10)
+    assert shifted["sigma"] == pytest.approx(fit["sigma"], rel=1e-8)
+
+
+def test_a_satellite_never_seen_with_another_takes_the_pseudo_inverse():
+    # G99 alone at epochs of its own: its offset is not separable from those epochs' clock, the
+    # offsets' normal matrix has a second null direction, and k must still be the dense one.
+    y, x, e, s = _synthetic(1.0, seed=6, n_epoch=60, n_sat=6, visible=4)
+    rng = np.random.default_rng(1)
+    y = np.concatenate([y, rng.normal(0, 1, 5)])
+    x = np.concatenate([x, rng.normal(0, 5, 5)])
+    e = np.concatenate([e, np.arange(1000, 1005)])
+    s = np.concatenate([s, np.full(5, "G99")])
+    fit = fit_periodic_factor(y, x, e, s, reject_sigma=1e9)
+    k, formal, rms, sigma = _dense_reference(y, x, e, s)
+    assert fit["n_sat"] == 7
+    assert fit["k"] == pytest.approx(k, rel=1e-10)
+    assert fit["sigma_formal"] == pytest.approx(formal, rel=1e-10)
+    assert fit["rms_fit_m"] == pytest.approx(rms, rel=1e-10)
+    assert fit["sigma"] == pytest.approx(sigma, rel=1e-10)
+
+
+def test_a_full_day_fit_is_one_pass_over_the_data():
+    # 2880 epochs x 32 satellites (a full 30-s GPS day): the k fit with its 32-fold jackknife
+    # builds no dense design matrix; this checks the result, the benchmark the time.
+    y, x, e, s = _synthetic(1.0, seed=7, n_epoch=2880, n_sat=32, visible=10)
+    fit = fit_periodic_factor(y, x, e, s)
+    assert fit["n_sat"] == 32 and fit["n_epochs"] == 2880
+    assert fit["k"] == pytest.approx(1.0, abs=4 * fit["sigma"])
+
+
 def test_per_satellite_offsets_are_part_of_the_model():
     # Large satellite offsets change nothing: they are estimated, not left in the residuals.
     y, x, e, s = _synthetic(1.0)

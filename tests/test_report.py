@@ -25,7 +25,7 @@ UNIT = re.compile(r"\((?:[^()]*\b)?(ns|µs|µs/day|ns/day|m|dimensionless|RINEX 
 @pytest.fixture(scope="module")
 def content():
     from gnssrel.jobs.demo import scenario_files
-    from gnssrel.jobs.report import analyse
+    from gnssrel.pipeline.analysis import analyse
 
     if not (SAMPLE_LOGS / "scenario.json").exists():
         pytest.skip("sample_logs/ is not in this checkout")
@@ -124,12 +124,14 @@ def test_written_report_has_every_figure_caption_and_the_caution(content, figure
     assert not [p for p in tmp_path.iterdir() if p.name.startswith(".")]  # no staging left
 
 
-def test_failed_build_leaves_no_folder(content, tmp_path, monkeypatch):
+def test_failed_build_leaves_no_folder(content, figures, tmp_path, monkeypatch):
     from gnssrel.report import builder
 
     def broken(*args, **kwargs):
         raise RuntimeError("disk full (simulated)")
 
+    # two figures already drawn (saved as files before the failure) keep the test quick
+    monkeypatch.setattr(builder, "build_figures", lambda _content: figures[:2])
     monkeypatch.setattr(builder, "render_html", broken)
     with pytest.raises(RuntimeError):
         builder.write_report(content, tmp_path / "rep")
@@ -176,10 +178,27 @@ def test_html_tables_keep_one_format_per_column_and_never_show_sigma_as_zero():
 
 
 def test_verdict_sentence_prints_tiny_sigmas_as_a_bound():
-    from gnssrel.report.verdicts import receiver_verdict
+    from gnssrel.pipeline.verdicts import receiver_verdict
 
     check = {"by_system": {s: {"convention": "excludes-periodic", "status": "fault: periodic term missing",
                                "convention_k": -3.4e-07, "convention_k_sigma": 5.9e-07} for s in "CEG"}}
     sentence = receiver_verdict("SLMB", None, check)["verdict"]
     assert "± 0.000" not in sentence and "-0.000" not in sentence
     assert "clock table k = G 0.000 (σ < 0.001), E 0.000 (σ < 0.001), C 0.000 (σ < 0.001)" in sentence
+
+
+def test_step_decimation_is_counted_in_the_report_accounting():
+    # `gnssrel report --step 60` on 30-s logs audits every other epoch: the pseudoranges left out
+    # are counted as not on the --step grid, not reported as used (before: read 4826 = used 4826 for GPS)
+    from gnssrel.accounting import Ledger
+    from gnssrel.pipeline.analysis import analyse
+
+    nav = SAMPLE_LOGS / "KVRP00ZZZ_R_20251621000_03H_MN.rnx"
+    obs = SAMPLE_LOGS / "KVRP00ZZZ_R_20251621000_03H_30S_MO.rnx"
+    if not obs.exists():
+        pytest.skip("sample_logs/ is not in this checkout")
+    content = analyse([nav], obs_paths=[obs], progress=lambda text: None, step_s=60.0)
+    gps = content.accounting["observations"]["G"]
+    assert gps["read"] == 4826                       # the demo log's GPS pseudoranges (regression)
+    assert gps["used"] == 2414 and gps["not on the --step grid"] == 2412
+    assert Ledger.from_dict(content.accounting).unbalanced() == []

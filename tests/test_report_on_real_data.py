@@ -12,9 +12,9 @@ import time
 import numpy as np
 import pandas as pd
 import pytest
-
 from conftest import refdata_file
-from gnssrel.jobs.report import analyse, default_window
+
+from gnssrel.pipeline.analysis import analyse, default_window
 from gnssrel.report.builder import write_report
 
 # IS-GPS-200 3.3.1.1: the satellite clock's 10.23 MHz is lowered to 10.22999999543 MHz,
@@ -92,11 +92,11 @@ def test_glonass_without_a_specification_figure_shows_missing_not_zero(mojn_repo
 @pytest.mark.refdata
 def test_default_window_is_the_overlap_with_the_precise_day():
     from gnssrel.io.sp3 import read_sp3
-    from gnssrel.jobs import common
-    from gnssrel.jobs.clocks import read_precise_clocks
+    from gnssrel.orbits.spans import navigation_span
+    from gnssrel.pipeline.inputs import read_navigation_files, read_precise_clocks
 
-    nav, systems = common.read_navigation_files([refdata_file("2020-177/MOJN00DNK_R_20201770000_01D_MN.rnx.gz")])
-    nav_start, _ = common.navigation_span(nav, systems)
+    nav, systems = read_navigation_files([refdata_file("2020-177/MOJN00DNK_R_20201770000_01D_MN.rnx.gz")])
+    nav_start, _ = navigation_span(nav, systems)
     assert nav_start < np.datetime64("2020-06-25T00:00", "ns")      # early records in the file
     sp3 = read_sp3([refdata_file(p) for p in PRODUCTS_2020[:2]])
     clk = read_precise_clocks([refdata_file(PRODUCTS_2020[2])])[0]

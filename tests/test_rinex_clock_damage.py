@@ -1,7 +1,7 @@
 """RINEX clock reader on damaged input: a damaged record costs that record, counted in
 ``attrs["accounting"]`` (item ``clock_records``) and warned about with file and line; values a
 strict reading of the format would reject are refused; values a column off their nominal
-place are read whole, never mis-scaled (issue 9)."""
+place are read whole, never mis-scaled (README, "Nothing lost, nothing silently wrong")."""
 
 from __future__ import annotations
 
@@ -17,7 +17,7 @@ from gnssrel.errors import FileFormatError
 from gnssrel.io.rinex_clock import read_rinex_clock
 
 sys.path.insert(0, str(Path(__file__).parent))
-from synthetic_clocks import make_constellation  # noqa: E402
+from synthetic_clocks import make_constellation
 
 T0 = np.datetime64("2020-06-25T00:00", "ns")
 STEP = np.timedelta64(30, "s")
@@ -191,8 +191,8 @@ def test_record_types_not_read_are_counted(tmp_path):
     assert ledger.dropped("clock_records", "-") == {
         "not read: AR receiver clock": 5, "not read: CR calibration": 1,
         "not read: XY (record type unknown to the format)": 1}
-    assert ledger.warnings == [f"{path}:{i + 1}: RINEX clock line skipped: "
-                               "not read: XY (record type unknown to the format)"]
+    assert ledger.warnings == [(f"{path}:{i + 1}: RINEX clock line skipped: "
+                               "not read: XY (record type unknown to the format)")]
 
 
 @pytest.mark.parametrize("label", ["    BDT", "  BDT", "BDT"])

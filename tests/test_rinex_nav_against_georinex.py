@@ -98,7 +98,7 @@ SINGLE_FILES = [
     ("2018-210/ceda2100.18e", "E"),
     ("2018-210/p1462100.18g", "R"),
     ("2018-210/CEDA00USA_R_20182100000_01D_MN.rnx.gz", "E"),
-    ("2018-210/ELKO00USA_R_20182100000_01D_MN.rnx.gz", "GECR"),
+    pytest.param("2018-210/ELKO00USA_R_20182100000_01D_MN.rnx.gz", "GECR", marks=pytest.mark.slow),
     ("2024-124/NYA100NOR_S_20241240000_01D_GN.rnx.gz", "G"),
 ]
 

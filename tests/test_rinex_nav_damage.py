@@ -87,7 +87,7 @@ def test_blank_integer_field(tmp_path):
 
 
 def test_garbled_satellite_number(tmp_path):
-    # Was a crash in int() (issue 9).
+    # Was a crash in int().
     warning = _one_damaged(tmp_path, RECORD.replace("G02", "G0X"))
     assert "garbled satellite number" in warning
 
@@ -109,7 +109,7 @@ def test_number_ending_early(tmp_path):
 
 
 def test_non_ascii_byte(tmp_path):
-    # Was a UnicodeDecodeError in other readers (issue 9); a byte 0xB5 inside a number here.
+    # Was a UnicodeDecodeError in other readers; a byte 0xB5 inside a number here.
     bad = RECORD.encode().replace(b"5.153783548355E+03", b"5.15378\xb5548355E+03")
     text = (HEADER3 + RECORD.replace("G02", "G03")).encode() + bad + RECORD.replace("G02", "G05").encode()
     path, nav = _read(tmp_path, text)
@@ -189,7 +189,7 @@ def test_glonass_position_out_of_range(tmp_path):
 
 @pytest.mark.parametrize("date", ["2018 02 30", "2018 13 29", "2019 02 29", "1020 07 29", "2018 07 29 24"])
 def test_impossible_date(tmp_path, date):
-    # 30 February was read as 2 March (issue 9): the day must exist in its month.
+    # 30 February was read as 2 March: the day must exist in its month.
     bad = RECORD.replace("2018 07 29 00", date if len(date) > 10 else date + " 00")
     warning = _one_damaged(tmp_path, bad, reason="refused: impossible date")
     assert "impossible epoch" in warning
@@ -361,7 +361,7 @@ GPS_HEADER = ("     3.04           N: GNSS NAV DATA    G: GPS              RINEX
 
 
 def test_merge_keeps_every_files_header_values(tmp_path):
-    # Issue 9: Galileo file first, GPS file second lost the GPS Klobuchar coefficients.
+    # Was: Galileo file first, GPS file second lost the GPS Klobuchar coefficients.
     gal = tmp_path / "gal.rnx"
     gal.write_text(GAL_HEADER + RECORD.replace("G02", "E02").replace("1.000000000000E+00 2.012",
                                                                       "5.170000000000E+02 2.012"))

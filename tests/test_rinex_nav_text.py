@@ -239,6 +239,29 @@ def test_blank_field_is_nan_and_keeps_the_record(tmp_path):
     assert np.isnan(row.tgd_s) and row.iodc == 53.0 and row.sqrt_a_sqrt_m == 5.153783548355e+03
 
 
+def _qzss_file(tmp_path, flag):
+    """The GPS record above as a QZSS one (QZS-1-like sqrt A and e) with fit-interval flag ``flag``."""
+    body = GPS_RECORD.format(week="2.012000000000E+03", tx="5.976000000000E+05").replace("G02 ", "J01 ")
+    body = body.replace("1.796138891950E-02", "7.578634459060E-02").replace("5.153783548355E+03",
+                                                                          "6.493451776505E+03")
+    body = body.replace(" 4.000000000000E+00\n", f" {flag:.12E}\n")
+    path = tmp_path / f"qzss{flag}.rnx"
+    path.write_text(HEADER3.replace("G: GPS ", "J: QZSS") + body)
+    return path
+
+
+@pytest.mark.parametrize("flag, hours", [(0, 2.0), (1, None)])
+def test_qzss_fit_interval_flag(tmp_path, flag, hours):
+    # RINEX 3.04 Table A9 / IS-QZSS-PNT 4.1.2.4 (from memory): QZSS writes a flag, not hours:
+    # 0 = a fit interval of 2 hours, 1 = longer than 2 hours (how long is not said: NaN).
+    row = read_navigation(_qzss_file(tmp_path, flag)).ephemerides["J"].iloc[0]
+    assert row.fit_interval_flag == flag
+    if hours is None:
+        assert np.isnan(row.fit_interval_h)
+    else:
+        assert row.fit_interval_h == hours
+
+
 @pytest.mark.refdata
 def test_merge_drops_duplicates_and_sorts():
     gn = read_navigation(refdata_file("2024-124/NYA100NOR_S_20241240000_01D_GN.rnx.gz"))
@@ -256,7 +279,7 @@ BRD4 = "2023-071/BRD400DLR_S_20230710000_01D_MN.rnx.gz"
 @pytest.mark.refdata
 def test_rinex4_accounting_of_every_record_kind():
     # Counts of the file's own markers ("> EPH G.. LNAV" ...), counted with grep when the
-    # accounting was written (issue 9); ION records are counted under "-" with STO/EOP.
+    # accounting was written; ION records are counted under "-" with STO/EOP.
     nav = read_navigation(refdata_file(BRD4))
     acc = nav.accounting
     assert acc.unbalanced() == [] and acc.warnings == []

@@ -73,6 +73,7 @@ def test_rinex302_pdel_observable_selection():
     assert_same_as_georinex(mine, ref)
 
 
+@pytest.mark.slow
 def test_ceda_time_window_galileo_glonass():
     path = refdata_file("2018-210/CEDA00USA_R_20182100000_23H_15S_MO.rnx.gz")
     t0, t1 = datetime(2018, 7, 29, 0, 0), datetime(2018, 7, 29, 3, 0)
@@ -83,6 +84,7 @@ def test_ceda_time_window_galileo_glonass():
     assert mine.time.values[0] >= np.datetime64(t0) and mine.time.values[-1] <= np.datetime64(t1)
 
 
+@pytest.mark.slow
 def test_nya1_hatanaka_first_hour_all_systems():
     path = refdata_file("2024-124/NYA100NOR_S_20241240000_01D_30S_MO.crx.gz")
     t0, t1 = datetime(2024, 5, 3, 0, 0), datetime(2024, 5, 3, 1, 0)

@@ -1,6 +1,6 @@
 """The observation reader on small damaged or unusual inputs built here (tests/obs_samples.py).
 
-Each test names the defect of issue 9 it guards against; every ledger must balance
+Each test names the defect it guards against; every ledger must balance
 (read == used + dropped, gnssrel.accounting).
 """
 
@@ -32,7 +32,7 @@ def _ledger(ds):
     return ledger
 
 
-# ---- RINEX 2: the last epoch is kept (issue 9, "silent data loss") -----------------------------
+# ---- RINEX 2: the last epoch is kept (was: silent data loss) ------------------------------------
 
 def test_rinex2_last_satellite_with_blank_last_line_keeps_the_last_epoch(tmp_path):
     # RINEX 2.11 table A2: each satellite takes ceil(6/5) = 2 lines, the second blank when it

@@ -53,6 +53,23 @@ def test_gps_nearest_toe_within_half_fit_interval_and_already_transmitted():
     assert rows_p[:, 0].tolist() == [0, 1, 2, 2, -1, -1] and status_p[:, 0].tolist() == [0, 0, 0, 0, 1, 1]
 
 
+@pytest.mark.parametrize("system, fit_h, half_h", [
+    ("G", np.nan, 2.0),   # no fit interval given: the 4-h fit's half, IS-GPS-200 20.3.4.4 (toe mid-fit)
+    ("G", 0.0, 2.0),      # RINEX 2 writes 0 for "4 h" (a flag, not hours): the same default
+    ("G", 6.0, 3.0),      # hours given: half of them
+    ("J", 2.0, 1.0),      # QZSS flag 0 read as 2 h (IS-QZSS-PNT 4.1.2.4, from memory): +- 1 h
+    ("J", np.nan, 1.0),   # QZSS flag 1 ("longer"): the 2-h fit's half all the same
+])
+def test_default_half_window_where_the_record_gives_no_fit_interval(system, fit_h, half_h):
+    table = _table([{"sv": f"{system}07", "toe": _at(5), "toc": _at(5), "transmission_time": _at(3),
+                     "health": 0, "fit_interval_h": fit_h}])
+    one_s = 1 / 3600
+    times = _at([5 - half_h - one_s, 5 - half_h, 5 + half_h, 5 + half_h + one_s])
+    rows, status = select_ephemerides(table, [f"{system}07"], times, system)
+    assert rows[:, 0].tolist() == [-1, 0, 0, -1]
+    assert status[:, 0].tolist() == [1, 0, 0, 1]
+
+
 def test_not_yet_transmitted_has_its_own_reason_under_the_receiver_rule():
     table = _table([{"sv": "G05", "toe": _at(4), "toc": _at(4), "transmission_time": _at(3), "health": 0,
                          "fit_interval_h": 4.0}])

@@ -1,5 +1,5 @@
 """The two named record-selection rules, "post" and "receiver" (gnssrel.orbits.selection), on minimal
-ephemeris tables built here.  Issue 9: "Ephemeris selection drops valid observations".
+ephemeris tables built here: no valid observation left without a record.
 
 Limits checked are the ones stated beside SYSTEM_LIMITS (measured on MOJN 2020-177 broadcast vs GRG
 final; BeiDou from the BDS ICD's 1-h update interval, from memory).

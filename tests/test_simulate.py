@@ -47,7 +47,7 @@ def test_same_seed_gives_byte_identical_files(scenario_dir, tmp_path):
 
 
 def test_manifest_names_the_faulty_receiver_and_lists_existing_files(scenario_dir):
-    out, manifest, _, _ = scenario_dir
+    out, _manifest, _, _ = scenario_dir
     on_disk = json.loads((out / "scenario.json").read_text())
     assert on_disk["faulty_receivers"] == ["SLMB"] and on_disk["correct_receivers"] == ["KVRP"]
     fault = {r["marker"]: r["fault"] for r in on_disk["receivers"]}

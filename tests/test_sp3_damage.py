@@ -1,6 +1,6 @@
 """SP3 reader on damaged input: a damaged record costs that record (a damaged epoch line its
 epoch), counted in ``attrs["accounting"]`` and warned about with file and line; values a strict
-reading of SP3-c/d section 2 would reject are refused, never read (issue 9)."""
+reading of SP3-c/d section 2 would reject are refused, never read."""
 
 from __future__ import annotations
 
@@ -101,8 +101,8 @@ def test_garbled_satellite_id_is_counted_not_lost_silently(tmp_path, sv_text):
     assert ledger.count("sp3_records", "-") == 1 and ledger.count("sp3_records", "G") == 4
     epoch_line = _line_of(lines, "*", 2) + 1
     assert ledger.warnings == [f"{path}:{i + 1}: SP3 record skipped: damaged satellite id",
-                               f"{path}:{epoch_line}: SP3 epoch has no record of G01, which the header "
-                               "lists (a line deleted?)"]
+                               (f"{path}:{epoch_line}: SP3 epoch has no record of G01, which the header "
+                               "lists (a line deleted?)")]
 
 
 def test_non_ascii_byte_in_a_number(tmp_path):
@@ -213,8 +213,8 @@ def test_time_system_one_column_off_is_read(tmp_path, shift):
     path, ds, ledger = _read(tmp_path, lines)
     assert ds.attrs["source_time_system"] == "BDT"
     assert ds["time"].values[0] == T0 + np.timedelta64(14, "s")  # BDT = GPST - 14 s (BDS-SIS-ICD 5.2.2)
-    assert ledger.warnings == [f"{path}:{i + 1}: SP3 header: time system 'BDT' read one column off "
-                               "its columns 10-12"]
+    assert ledger.warnings == [(f"{path}:{i + 1}: SP3 header: time system 'BDT' read one column off "
+                               "its columns 10-12")]
 
 
 def test_system_filter_is_counted(tmp_path):
@@ -285,8 +285,8 @@ def test_missing_or_garbled_interval_line_is_taken_from_the_epochs(tmp_path):
     del lines[1]
     path, ds, ledger = _read(tmp_path, lines)
     assert ds.attrs["epoch_interval_s"] == 900.0 and ds.sizes["time"] == 5
-    assert ledger.warnings == [f"{path}:2: SP3 header: no '##' line after line 1; epoch interval taken "
-                               "from the epochs"]
+    assert ledger.warnings == [(f"{path}:2: SP3 header: no '##' line after line 1; epoch interval taken "
+                               "from the epochs")]
     lines = _lines()
     lines[1] = lines[1][:24] + "   9_00.000000" + lines[1][38:]
     _, ds, ledger = _read(tmp_path, lines)

@@ -32,7 +32,7 @@ from __future__ import annotations
 import numpy as np
 
 from gnssrel.constants import C_M_S
-from gnssrel.signals import CARRIER_HZ, frequency_hz, glonass_frequency_hz  # noqa: F401 (public here too)
+from gnssrel.signals import CARRIER_HZ, frequency_hz, glonass_frequency_hz
 
 SEMICIRCLE_RAD = np.pi          # IS-GPS-200 works in semicircles: 1 semicircle = pi rad
 F_L1_HZ = CARRIER_HZ["G"]["L1"]

@@ -28,6 +28,7 @@ from gnssrel.audit import ionosphere, satellites
 from gnssrel.errors import NoDataError
 from gnssrel.orbits import selection
 from gnssrel.orbits.selection import take_rows
+from gnssrel.systems import system_model
 
 log = logging.getLogger(__name__)
 
@@ -245,7 +246,7 @@ def prepare_observations(obs_ds, nav, systems=None, include_unhealthy: bool = Fa
         obs["ephemeris_row"][idx] = rows
         obs["drop_reason"][idx] = _state_reasons(st, sv, eph, precise is not None)
         codes = tuple(obs["code"][idx[0]].split("+"))
-        if system == "R" and len(codes) == 1:           # FDMA: the carrier of the satellite's channel
+        if system_model(system).fdma and len(codes) == 1:   # FDMA: the carrier of the satellite's channel
             obs["frequency_hz"][idx] = signals.glonass_frequency_hz(
                 codes[0][1], take_rows(eph, "frequency_channel", rows))
         obs["group_delay_m"][idx] = np.where(rows >= 0, ionosphere.group_delay_m(

@@ -9,21 +9,21 @@ flat arrays ``(n,)`` (positions ``(n, 3)``) instead of on a fixed grid:
   transmitted; the limits per system as data: maximum age, health),
   chosen at the receive time tag (the transmit time is 0.07-0.13 s earlier,
   which cannot change the choice except at a record's very edge);
-* broadcast orbit: :func:`gnssrel.orbits.keplerian.kepler_states` (G, E, C, J)
-  and :func:`gnssrel.orbits.glonass.glonass_states` (R);
-* broadcast clock polynomial: :func:`gnssrel.clocks.broadcast.broadcast_clock_s`;
+* broadcast orbit: the system's orbit model (:func:`gnssrel.orbits.models.orbit_model`:
+  Keplerian elements for G, E, C, J, the GLONASS state vector for R);
+* broadcast clock polynomial: :func:`gnssrel.orbits.models.broadcast_clock_s`;
 * precise orbit: :func:`gnssrel.orbits.precise.precise_states`, one satellite
   at a time at its own transmit times; precise clock from the SP3 or a RINEX
-  clock file via :func:`gnssrel.clocks.interpolation.interpolate_clock`;
-* periodic term: :func:`gnssrel.relativity.clock_terms.periodic_icd_s`
-  (F e sqrt(A) sin E from the broadcast elements, IS-GPS-200 20.3.3.3.3.1) where
-  elements exist, else :func:`~gnssrel.relativity.clock_terms.periodic_state_s`
-  (-2 r.v / c^2: GLONASS, precise states); J2 term:
+  clock file via :func:`gnssrel.orbits.interpolation.interpolate_clock`;
+* periodic term: :func:`gnssrel.relativity.clock_terms.periodic_term_s` decides the
+  form (F e sqrt(A) sin E from the broadcast elements, IS-GPS-200 20.3.3.3.3.1, where
+  the system's records carry elements, else -2 r.v / c^2: GLONASS); precise states:
+  :func:`~gnssrel.relativity.clock_terms.periodic_state_s`; J2 term:
   :func:`~gnssrel.relativity.clock_terms.j2_periodic_s`.
 
-Whether the clock of the source already holds the periodic term is a rule
-(:data:`gnssrel.clocks.broadcast.POLYNOMIAL_HOLDS_PERIODIC`: GLONASS broadcast
-yes, the others no); precise clocks exclude it for every system (IGS convention,
+Whether the clock of the source already holds the periodic term is a rule of the
+system model (``polynomial_holds_periodic`` of :data:`gnssrel.systems.SYSTEM_MODELS`:
+GLONASS broadcast yes, the others no); precise clocks exclude it for every system (IGS convention,
 refdata README; the demo products likewise).
 
 Transmit time (common practice; IS-GPS-200 20.3.3.3.3.1 for the clock): a code
@@ -37,25 +37,19 @@ from __future__ import annotations
 
 import numpy as np
 
-from gnssrel.clocks.broadcast import POLYNOMIAL_HOLDS_PERIODIC, broadcast_clock_s
-from gnssrel.clocks.interpolation import interpolate_clock
 from gnssrel.constants import C_M_S, SYSTEMS
-from gnssrel.orbits.glonass import ACCELERATION_COLUMNS, STATE_COLUMNS, glonass_states
-from gnssrel.orbits.keplerian import ELEMENT_COLUMNS, kepler_states
-from gnssrel.orbits.precise import STATUS_OK, STATUS_OUTSIDE, precise_states
+from gnssrel.orbits.frames import inertial_velocity, osculating_elements
+from gnssrel.orbits.interpolation import interpolate_clock
+from gnssrel.orbits.models import broadcast_clock_s, orbit_model
+from gnssrel.orbits.precise import precise_states
 from gnssrel.orbits.selection import DEFAULT_RULE, select_ephemerides, take_rows
-from gnssrel.relativity.clock_terms import (
-    j2_periodic_s,
-    osculating_elements,
-    periodic_icd_s,
-    periodic_state_s,
-)
+from gnssrel.orbits.status import STATUS_OK, STATUS_OUTSIDE
+from gnssrel.relativity.clock_terms import j2_periodic_s, periodic_state_s, periodic_term_s
+from gnssrel.systems import system_model
 
 TRANSMIT_ITERATIONS = 3
 """dt_sv is below 1 ms, so each step shrinks the error by a factor ~1e-3: 3 are plenty."""
 
-_GLONASS_COLUMNS = ("toc",) + STATE_COLUMNS + ACCELERATION_COLUMNS
-_OPTIONAL_KEPLER_COLUMNS = ("toe_sow_s", "is_geo")
 
 
 def offset_times(t_gpst, offset_s) -> np.ndarray:
@@ -107,23 +101,18 @@ def broadcast_at_transmit(table, system: str, sv, t_rx, pseudorange_m, include_u
     (:data:`gnssrel.orbits.selection.STATUS_CODES`).  ``rule``: the record-selection rule.
     """
     rows, status = choose_records(table, system, sv, t_rx, include_unhealthy, rule)
-    holds = POLYNOMIAL_HOLDS_PERIODIC[system]
-    if system == "R":
-        rec = {c: take_rows(table, c, rows) for c in _GLONASS_COLUMNS}
-    else:
-        wanted = ELEMENT_COLUMNS + tuple(c for c in _OPTIONAL_KEPLER_COLUMNS if c in table)
-        rec = {c: take_rows(table, c, rows) for c in wanted}
+    model, orbit = system_model(system), orbit_model(system)
+    holds = model.polynomial_holds_periodic
+    wanted = orbit.columns + tuple(c for c in orbit.optional_columns if c in table)
+    rec = {c: take_rows(table, c, rows) for c in wanted}
 
     def state_at(t):
-        if system == "R":
-            st = glonass_states(rec, t)
-            st["periodic_s"] = periodic_state_s(st["position_ecef_m"], st["velocity_ecef_m_per_s"])
-            a_m = st["radius_m"]                       # e ~ 0.001: the radius stands for a
-        else:
-            st = kepler_states(rec, t, system)
-            st["periodic_s"] = periodic_icd_s(rec["eccentricity"], rec["sqrt_a_sqrt_m"],
-                                              st["eccentric_anomaly_rad"], system)
-            a_m = rec["sqrt_a_sqrt_m"] ** 2
+        st = orbit.evaluate(rec, t, system)
+        st["periodic_s"], _ = periodic_term_s(system, st["position_ecef_m"], st["velocity_ecef_m_per_s"],
+                                              rec.get("eccentricity"), rec.get("sqrt_a_sqrt_m"),
+                                              st["eccentric_anomaly_rad"])
+        # without elements (GLONASS, e ~ 0.001) the radius stands for a
+        a_m = rec["sqrt_a_sqrt_m"] ** 2 if model.has_elements else st["radius_m"]
         st["j2_s"] = _j2_term_s(a_m, st["inclination_rad"], st["argument_of_latitude_rad"], system)
         st["satellite_clock_s"] = broadcast_clock_s(table, rows, t, system)
         st["clock_total_s"] = st["satellite_clock_s"] + (0.0 if holds else st["periodic_s"])
@@ -161,16 +150,14 @@ def precise_at_transmit(orbits, clocks, system: str, sv, t_rx, pseudorange_m) ->
                 clock[idx] = interpolate_clock(clock_times, clocks["clock_s"].sel(sv=name).values, t[idx])
         periodic = periodic_state_s(pos, vel)
         # Inertial velocity in the axes of the instant (v + omega x r) for the osculating i and u.
-        w = const.omega_earth_rad_s
-        v_inertial = vel + w * np.stack([-pos[:, 1], pos[:, 0], np.zeros(n)], axis=-1)
         with np.errstate(invalid="ignore", divide="ignore"):
-            el = osculating_elements(pos, v_inertial, const.gm_m3_s2)
+            el = osculating_elements(pos, inertial_velocity(pos, vel, const.omega_earth_rad_s), const.gm_m3_s2)
         j2 = _j2_term_s(el["semi_major_axis_m"], el["inclination_rad"], el["argument_of_latitude_rad"], system)
         return {"position_ecef_m": pos, "velocity_ecef_m_per_s": vel, "satellite_clock_s": clock,
                 "periodic_s": periodic, "j2_s": j2, "clock_total_s": clock + periodic}
 
     st = transmit_states(state_at, np.asarray(t_rx), pseudorange_m)
     ok = np.all(np.isfinite(st["position_ecef_m"]), axis=1) & np.isfinite(st["satellite_clock_s"])
-    st["status"] = np.where(ok, STATUS_OK, STATUS_OUTSIDE).astype(np.int8)   # orbits.precise codes
+    st["status"] = np.where(ok, STATUS_OK, STATUS_OUTSIDE).astype(np.int8)   # orbits.status codes
     st["periodic_in_clock"] = np.zeros(ok.shape, bool)
     return st

@@ -26,6 +26,7 @@ from gnssrel.audit.corrections import corrections_table
 from gnssrel.audit.observables import prepare_observations, stage_drops
 from gnssrel.audit.positioning import position_errors_3d_m, single_point_positions
 from gnssrel.audit.relativity_fit import relativity_k
+from gnssrel.clocks.firmware import check_receiver_clocks
 
 
 @dataclass
@@ -108,8 +109,6 @@ def _log_health(obs_ds) -> dict:
 def check_clock_table(receiver_clocks: pd.DataFrame, nav, times, systems=None) -> dict:
     """The receiver clock-table check (:func:`gnssrel.clocks.firmware.check_receiver_clocks`)
     over the span of the observation epochs ``times``; returns its summary dict."""
-    from gnssrel.clocks.firmware import check_receiver_clocks
-
     t = receiver_clocks["time"].to_numpy().astype("datetime64[ns]")
     span = (t >= np.min(times)) & (t <= np.max(times))
     _, check = check_receiver_clocks(receiver_clocks[span], nav, systems=systems)

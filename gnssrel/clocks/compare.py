@@ -30,6 +30,9 @@ from gnssrel.clocks.convention import CANDIDATES, VERDICT_RULE, fit_convention, 
 from gnssrel.clocks.datum import DATUM_METHOD, DATUM_SHARED_WITH, datum_by_system
 from gnssrel.constants import SYSTEM_ORDER
 from gnssrel.errors import NoDataError
+from gnssrel.orbits.broadcast import broadcast_states
+from gnssrel.relativity.clock_terms import PERIODIC_FORMS
+from gnssrel.relativity.clock_terms import periodic_term_s as clock_periodic_term_s
 from gnssrel.timescales import NS_PER_S, seconds_between
 
 NS = 1e9
@@ -55,24 +58,19 @@ def select_epochs(times, start=None, end=None, step_s: float | None = None) -> n
 def periodic_term_s(states, systems_of_sv: np.ndarray) -> tuple[np.ndarray, dict]:
     """The periodic relativistic term (time, sv) from broadcast states, and the form used per system.
 
-    F e sqrt(A) sin E (IS-GPS-200 20.3.3.3.3.1 and the other ICDs) where the Keplerian
-    elements exist; -2 r.v/c^2 (REFERENCE-CHECKS 1.3, equivalent vector form) elsewhere (GLONASS).
+    Per system, :func:`gnssrel.relativity.clock_terms.periodic_term_s` decides the form:
+    F e sqrt(A) sin E (IS-GPS-200 20.3.3.3.3.1 and the other ICDs) from the broadcast
+    elements where the system has them; -2 r.v/c^2 (REFERENCE-CHECKS 1.3) elsewhere (GLONASS).
     """
-    from gnssrel.relativity.clock_terms import periodic_icd_s, periodic_state_s
-
     out = np.full(states["clock_poly_s"].shape, np.nan)
     forms = {}
     for letter in np.unique(systems_of_sv):
         cols = systems_of_sv == letter
-        ecc = states["eccentricity"].values[:, cols] if "eccentricity" in states else None
-        if letter != "R" and ecc is not None and np.any(np.isfinite(ecc)):
-            out[:, cols] = periodic_icd_s(ecc, states["sqrt_a_sqrt_m"].values[:, cols],
-                                          states["eccentric_anomaly_rad"].values[:, cols], letter)
-            forms[letter] = "F e sqrt(A) sin E (broadcast elements)"
-        else:
-            out[:, cols] = periodic_state_s(states["position_ecef_m"].values[:, cols, :],
-                                            states["velocity_ecef_m_per_s"].values[:, cols, :])
-            forms[letter] = "-2 r.v/c^2 (broadcast state)"
+        elements = [states[n].values[:, cols] if n in states else None
+                    for n in ("eccentricity", "sqrt_a_sqrt_m", "eccentric_anomaly_rad")]
+        out[:, cols], form = clock_periodic_term_s(letter, states["position_ecef_m"].values[:, cols, :],
+                                                   states["velocity_ecef_m_per_s"].values[:, cols, :], *elements)
+        forms[letter] = PERIODIC_FORMS[form]
     return out, forms
 
 
@@ -118,8 +116,6 @@ def compare_clocks(nav, precise_clock_ds, systems=None, start=None, end=None, st
                           f"({''.join(sorted(wanted)) if wanted else 'any'})")
     times = clock["time"].values
     if states is None:
-        from gnssrel.orbits.broadcast import broadcast_states
-
         letters = sorted({s[0] for s in clock["sv"].values.astype(str)})
         states = broadcast_states(nav, times, systems=letters, include_unhealthy=include_unhealthy)
     common = np.intersect1d(clock["sv"].values.astype(str), np.asarray(states["sv"].values).astype(str))

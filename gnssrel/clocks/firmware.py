@@ -25,6 +25,9 @@ from gnssrel.clocks.compare import periodic_term_s
 from gnssrel.clocks.convention import CANDIDATES, N_SIGMA, fit_convention
 from gnssrel.constants import C_M_S, GALILEO, GPS, SYSTEM_ORDER, SYSTEMS
 from gnssrel.errors import NoDataError
+from gnssrel.orbits.broadcast import broadcast_states
+from gnssrel.orbits.frames import inertial_velocity
+from gnssrel.systems import system_model
 from gnssrel.timescales import SECONDS_PER_WEEK, SYSTEM_TIME_SCALE, seconds_between, to_week_seconds
 
 EXPECTED_K = {letter: (0.0 if holds else 1.0) for letter, holds in POLYNOMIAL_HOLDS_PERIODIC.items()}
@@ -78,8 +81,7 @@ def periodic_rate_s_per_s(states, systems_of_sv) -> np.ndarray:
         cols = systems_of_sv == letter
         const = SYSTEMS[letter]
         rr, vv = r[:, cols, :], v[:, cols, :]
-        omega_cross_r = const.omega_earth_rad_s * np.stack([-rr[..., 1], rr[..., 0], np.zeros(rr.shape[:2])], -1)
-        vi = vv + omega_cross_r
+        vi = inertial_velocity(rr, vv, const.omega_earth_rad_s)
         out[:, cols] = -2.0 * ((vi * vi).sum(-1) - const.gm_m3_s2 / np.linalg.norm(rr, axis=-1)) / C_M_S**2
     return out
 
@@ -94,7 +96,7 @@ def crossover_error_s(nav, states, times, sv) -> np.ndarray:
     out = np.zeros((len(times), len(sv)))
     rows_all = states["ephemeris_row"].values
     for letter in np.unique([s[0] for s in sv]):
-        if letter == "R" or letter not in nav.ephemerides:
+        if not system_model(letter).clock_week_fold or letter not in nav.ephemerides:
             continue
         cols = np.array([s[0] == letter for s in sv])
         table = nav.ephemerides[letter]
@@ -122,8 +124,9 @@ def _status(letter, fit, expected):
         return "undetermined: too little data for a verdict"
     if fit.convention == {v: k for k, v in CANDIDATES.items()}[expected]:
         return "as specified"
-    if letter == "R" and fit.convention == "includes-periodic":
-        return "fault: periodic term applied to GLONASS"
+    model = system_model(letter)
+    if model.polynomial_holds_periodic and fit.convention == "includes-periodic":
+        return f"fault: periodic term applied to {model.name}"
     return {"excludes-periodic": "fault: periodic term missing",
             "reversed-periodic": "fault: periodic term reversed",
             "doubled-periodic": "fault: periodic term doubled",
@@ -148,8 +151,6 @@ def check_receiver_clocks(receiver_table: pd.DataFrame, nav, states=None, system
     x = np.full((len(times), len(sv)), np.nan)
     x[ti, si] = df["clock_correction_s"].to_numpy(np.float64)
     if states is None:
-        from gnssrel.orbits.broadcast import broadcast_states
-
         states = broadcast_states(nav, times, systems=sorted({s[0] for s in sv}))
     states_sv = np.asarray(states["sv"].values).astype(str)
     common = np.intersect1d(sv, states_sv)

@@ -163,6 +163,8 @@ def read_nmea_gga(path: str | Path, date_utc: str | None = None) -> pd.DataFrame
         try:
             fields = _split_sentence(raw)
             if not fields:
+                if raw.strip():   # not blank, not a sentence ('$' lost): said, counted when a GGA
+                    _not_a_sentence(ledger, path, line_no, raw, warned)
                 continue
             kind = fields[0][-3:]
             if kind in ("RMC", "ZDA"):
@@ -212,6 +214,17 @@ def read_nmea_gga(path: str | Path, date_utc: str | None = None) -> pd.DataFrame
     df = pd.DataFrame(rows, columns=["time_utc", "lat_deg", "lon_deg", "height_m", "quality", "n_sat",
                                      "line"])
     return _finish(df, to_gpst(df["time_utc"].to_numpy(), "UTC"), ledger)
+
+
+def _not_a_sentence(ledger: Ledger, path, line_no: int, raw: str, warned: dict) -> None:
+    """A line that is no NMEA sentence (no leading '$' or '!'): a fix when it holds "GGA,"."""
+    reason = "not an NMEA sentence"
+    if "GGA," in raw:
+        ledger.read(ITEM, NO_SYSTEM)
+        ledger.drop(ITEM, NO_SYSTEM, reason)
+    warned[reason] = warned.get(reason, 0) + 1
+    if warned[reason] <= _WARNED:
+        ledger.warn(f"line is {reason} (no leading '$'); ignored", path, line_no)
 
 
 def _nothing_usable(message: str, ledger: Ledger) -> str:

@@ -115,6 +115,8 @@ def read_rinex_clock(path, systems=None, kinds=("AS",)) -> xr.Dataset:
             ledger.drop(ITEM, "-", f"not read: {code.decode()} {label}", n)
     alive = read_here.copy()
     alive = drop(is_as & ~rec["sv_ok"], system, rec["line"], "damaged satellite name", alive)
+    # No system has a satellite number 00 (PRNs and slots start at 1): a garbled name.
+    alive = drop(is_as & rec["sv_ok"] & rec["sv_zero"], system, rec["line"], "satellite number 00", alive)
     for code in np.unique(rec["reason"][rec["reason"] > 0]):
         alive = drop(rec["reason"] == code, system, rec["line"], REASONS[code], alive)
     alive &= ok
@@ -179,7 +181,7 @@ def _duplicates(rec, times, name_index, n_names, alive):
     none = np.zeros(len(alive), bool)
     if not alive.any():
         return none, none
-    epochs, row = np.unique(times[alive], return_inverse=True)
+    _epochs, row = np.unique(times[alive], return_inverse=True)
     cell = (row.astype(np.int64) * n_names + name_index[alive]) * 2 + (rec["type"][alive] == b"AR")
     counts = np.bincount(cell)
     if counts.max() < 2:
@@ -362,6 +364,7 @@ def _parse_body(body, body_start, header, path, ledger, all_ascii) -> dict:
         reason[slow] = got.pop("reason")
         for k, v in got.items():
             fields[k][slow] = v
+        _warn_off_columns(body, idx, slow & (reason == 0) & (fields["count"] <= 2), y0, nums_all, path, ledger)
     ok = reason == 0
     y, mo, d, h, mi = (fields[k] for k in ("year", "month", "day", "hour", "minute"))
     max_second = 61.0 if header["time_system"] in ("UTC", "GLO") else 60.0  # a leap second in UTC
@@ -375,8 +378,28 @@ def _parse_body(body, body_start, header, path, ledger, all_ascii) -> dict:
     time = np.full(n, np.datetime64("NaT"), "datetime64[ns]")
     if ok.any():
         time[ok] = pf.compose(y[ok], mo[ok], d[ok], h[ok], mi[ok], fields["second"][ok])
+    sv_zero = (u[:, 4] == ord("0")) & (u[:, 5] == ord("0"))
     return {"type": types2[idx], "name": name, "letter": u[:, 3].copy().view("S1"), "sv_ok": sv_ok,
+            "sv_zero": sv_zero,
             "time": time, "bias": bias, "sigma": sigma, "ok": ok, "reason": reason, "line": nums_all[idx]}
+
+
+def _warn_off_columns(body, idx, read_by_blanks, y0, nums_all, path, ledger, listed: int = 20):
+    """Say where a record with one or two values was read by its blank-separated fields because a
+    field is off the columns of the format (A2,1X,A4/A9,1X,I4,4(1X,I2),F10.6,I3,3X,2(E19.12,1X));
+    trailing blanks alone do not count.  The values are unambiguous, so the record is kept."""
+    rows = np.flatnonzero(read_by_blanks)
+    if not rows.size:
+        return
+    lines = [body[i].rstrip() for i in idx[rows]]
+    u = np.array(lines, dtype="S85").view(np.uint8).reshape(len(lines), 85)
+    one, two = _canonical(u, y0, np.fromiter(map(len, lines), np.int64, count=len(lines)))
+    off = rows[~(one | two)]
+    for r in off[:listed]:
+        ledger.warn("RINEX clock record: a field is off its columns; read by its blank-separated values",
+                    path, int(nums_all[idx[r]]))
+    if off.size > listed:
+        ledger.warn(f"RINEX clock file: {off.size - listed} more records off their columns", path)
 
 
 def _other_lines(body, is_record, idx, y0, nums_all, lengths_all, path, ledger):

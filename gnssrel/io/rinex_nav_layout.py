@@ -143,7 +143,10 @@ def _number(text, path, line_no, line, what):
         return None
     if not _STRICT_NUMBER.match(text):  # Python's float() takes "1_0", "nan", "inf": refused
         raise FileFormatError(f"garbled number {text!r} in {what}", path, line_no, line)
-    return float(text)
+    value = float(text)
+    if not math.isfinite(value):        # "1E400" overflows to inf: no value of any header field
+        raise FileFormatError(f"number {text!r} beyond any value in {what}", path, line_no, line)
+    return value
 
 
 def read_header(lines, path, warn=None):

@@ -29,6 +29,7 @@ _NS = ts.NS_PER_S
 _HALF_WEEK_S = ts.SECONDS_PER_WEEK / 2
 DAMAGED = "damaged"
 IMPOSSIBLE_DATE = "refused: impossible date"
+SATELLITE_00 = "refused: satellite number 00"
 WEEK_DISAGREES = "refused: week disagrees with the epoch"
 
 # Fields without which a record cannot give a state: blank is refused ("damaged").
@@ -147,7 +148,11 @@ def _epochs(chars, major, letter, records, lines, refused):
 
     a, b = cols["prn"] if major == 2 else (1, 3)
     prn, bad = fld.parse_integers(chars, a, b)
-    refused.mark(bad | (prn < 1), DAMAGED, describe("garbled satellite number"))
+    if major != 2:   # RINEX 3/4: satellite number A1,I2.2, so G05, never G 5 (RINEX 3.05 table A6)
+        bad |= chars[:, 1] == fld.BLANK
+    refused.mark(bad, DAMAGED, describe("garbled satellite number"))
+    # No system has a satellite number 00 (PRNs and slots start at 1).
+    refused.mark(prn < 1, SATELLITE_00, describe("satellite number 00"))
     # Fields of one width are read together: RINEX 3 month ... second (I2.2), RINEX 2
     # year ... minute (I3).
     names = ("month", "day", "hour", "minute", "second") if major != 2 else \

@@ -78,7 +78,8 @@ def read_observations(path, systems=None, start=None, end=None, observables=None
     file and line.
 
     A damaged epoch in the body (including a last epoch cut short by the end of the
-    file) is skipped and counted; an optional header line that cannot be read is left
+    file, and an epoch with a satellite id that cannot be: number 00, a RINEX 3 "G 5",
+    a satellite twice; each such id is warned about at its line) is skipped and counted; an optional header line that cannot be read is left
     aside with a warning; a bad header (empty file, unknown version, no END OF HEADER,
     ...) raises :class:`gnssrel.errors.FileFormatError` naming the file and line.
     """
@@ -164,6 +165,11 @@ def _account_epochs(ledger, scan, keep_epoch, ds, opened, path, warnings, suspec
     for line in scan.damaged_lines:
         if line != scan.cut_line:
             ledger.warn("damaged epoch skipped", path, line)
+    for line, written, why in scan.refused_ids:
+        ledger.warn(f"satellite id {written!r} refused: {why}; its epoch is skipped", path, line)
+    for line in scan.unread_damage_lines[:_LISTED]:
+        ledger.warn("a record of a system not requested holds a field that is no number (not read)",
+                    path, line)
     if cut:
         ledger.warn("the file ends inside this epoch (its last line is cut short): epoch skipped",
                     path, scan.cut_line)

@@ -20,6 +20,8 @@ _DIGIT[48:58] = True
 _VALUE_CHAR = _DIGIT.copy()
 _VALUE_CHAR[[SPACE, ord("."), ord("-"), ord("+")]] = True
 NS_PER_S = 1_000_000_000
+_BODY_CHAR = _VALUE_CHAR.copy()
+_BODY_CHAR[10] = True   # line ends
 
 
 @dataclass
@@ -98,7 +100,12 @@ def seconds_field_ns(m: np.ndarray, a: int, b: int) -> tuple[np.ndarray, np.ndar
     text = np.ascontiguousarray(chars).view(f"S{b - a}").ravel()
     value = np.zeros(len(text), dtype=np.int64)
     if allowed.any():
-        value[allowed] = np.round(text[allowed].astype(np.float64) * NS_PER_S).astype(np.int64)
+        seconds = np.zeros(len(text))
+        seconds[allowed] = text[allowed].astype(np.float64)
+        # A second of a minute is below 61 (leap second): a longer one is refused here, before
+        # the cast to int64 nanoseconds, which it could overflow (e.g. a field of eleven 9s).
+        allowed &= seconds < 61.0
+        value[allowed] = np.round(seconds[allowed] * NS_PER_S).astype(np.int64)
     return value, allowed
 
 
@@ -136,10 +143,7 @@ def decode_observation_fields(m: np.ndarray, n_used: np.ndarray, with_flags: boo
     chars = m[:, :, :14]
     blank = (chars == SPACE).all(axis=2)
     wanted = used & ~blank
-    # F14.3: only digits, blanks, sign and point, and the point in the 11th column; anything
-    # else (NaN, INF, '_', a value shifted out of its columns) makes the record damaged.
-    misplaced = chars[:, :, 10] != ord(".")
-    bad_row = ((~_VALUE_CHAR[chars].all(axis=2) | misplaced) & wanted).any(axis=1)
+    bad_row = _shape_bad(chars, wanted)
     wanted &= ~bad_row[:, None]
     text = np.ascontiguousarray(chars).view("S14")[:, :, 0]
     values = np.full((n_rows, n_fields), np.nan)
@@ -160,6 +164,30 @@ def decode_observation_fields(m: np.ndarray, n_used: np.ndarray, with_flags: boo
     return DecodedFields(values, lli, ssi, bad_row)
 
 
+def _shape_bad(chars: np.ndarray, wanted: np.ndarray) -> np.ndarray:
+    """Rows where a wanted F14.3 field (``chars`` (n, k, 14)) is no number as written: bool (n,).
+
+    Only digits, blanks, sign and point, the point in the 11th column; anything else (NaN,
+    INF, '_', a value shifted out of its columns) makes the record damaged.
+    """
+    misplaced = chars[:, :, 10] != ord(".")
+    return ((~_VALUE_CHAR[chars].all(axis=2) | misplaced) & wanted).any(axis=1)
+
+
+def lines_with_odd_bytes(lines: Lines) -> np.ndarray:
+    """Indices of the lines holding, after their first character (a system letter or '>'), a
+    byte no observation record has (not a digit, blank, sign or point: '_', 'N' of NaN ...).
+
+    One pass over the body, for records that are not decoded (systems not requested).
+    """
+    raw = lines.raw[:lines.raw.size - lines.pad]
+    odd = np.flatnonzero(~_BODY_CHAR[raw])
+    if not odd.size:
+        return np.zeros(0, np.int64)
+    owner = np.searchsorted(lines.starts, odd, side="right") - 1
+    return np.unique(owner[odd != lines.starts[owner]])
+
+
 def _flag_digit(chars: np.ndarray, used: np.ndarray) -> np.ndarray:
     out = np.where(_DIGIT[chars] & used, chars.astype(np.float64) - 48.0, np.nan)
     return out
@@ -173,14 +201,52 @@ def _is_number(s: bytes) -> bool:
     return True
 
 
-def sv_names(m3: np.ndarray, blank_system: str = "") -> tuple[np.ndarray, np.ndarray]:
-    """Satellite names from (n, 3) byte rows like b'G05', b'G 5' or (RINEX 2) b' 5': (names 'U3', ok)."""
+def sv_names(m3: np.ndarray, blank_system: str = "", strict: bool = False) -> tuple[np.ndarray, np.ndarray]:
+    """Satellite names from (n, 3) byte rows like b'G05', b'G 5' or (RINEX 2) b' 5': (names 'U3', ok).
+
+    ``strict`` (RINEX 3/4): a blank tens digit (b'G 5') is refused; number 00 always is.
+    """
     m3 = m3.copy()
     m3[m3 >= 128] = ord("?")  # a non-ASCII byte is no satellite (and must not reach the text decoding)
     if blank_system:
         m3[m3[:, 0] == SPACE, 0] = ord(blank_system)
-    m3[m3[:, 1] == SPACE, 1] = ord("0")
+    tens_blank = m3[:, 1] == SPACE
+    m3[tens_blank, 1] = ord("0")
     letter_ok = np.isin(m3[:, 0], np.frombuffer(b"GRECJSI", np.uint8))
     ok = letter_ok & _DIGIT[m3[:, 1]] & _DIGIT[m3[:, 2]]
+    # No system has a satellite number 00 (PRNs and GLONASS slots start at 1): refused.
+    ok &= ~((m3[:, 1] == ord("0")) & (m3[:, 2] == ord("0")))
+    if strict:   # RINEX 3/4: satellite number A1,I2.2, so G05, never G 5 (RINEX 3.05 table A13)
+        ok &= ~tens_blank
     names = np.ascontiguousarray(m3).view("S3")[:, 0].astype("U3")
     return names, ok
+
+
+def repeated_in_epoch(owner: np.ndarray, names: np.ndarray) -> np.ndarray:
+    """Records whose satellite appears twice in its epoch (bool, both copies): which of them holds
+    the satellite's values cannot be told, so they damage their epoch like a bad name."""
+    if names.size < 2:
+        return np.zeros(names.size, bool)
+    order = np.lexsort((names, owner))
+    same = (owner[order][1:] == owner[order][:-1]) & (names[order][1:] == names[order][:-1])
+    out = np.zeros(names.size, bool)
+    out[order[1:][same]] = True
+    out[order[:-1][same]] = True
+    return out
+
+
+def refused_ids(m3, name_ok, repeated, line_numbers, listed: int = 20) -> list:
+    """(file line, id as written, why) of the first ``listed`` satellite ids refused, for the warnings."""
+    out = []
+    for i in np.flatnonzero(~name_ok | repeated)[:listed]:
+        text = bytes(m3[i]).decode("ascii", "replace")
+        if repeated[i] and name_ok[i]:
+            why = "the satellite appears twice in its epoch"
+        elif text[1:].replace(" ", "0") == "00" and text[:1] in "GRECJSI ":
+            why = "satellite number 00 (no system has one)"
+        elif text[1:2] == " " and text[2:].isdigit():
+            why = "blank in the satellite number (RINEX 3 writes G05)"
+        else:
+            why = "not a satellite id"
+        out.append((int(line_numbers[i]), text, why))
+    return out

@@ -175,8 +175,8 @@ def parse_obs_header(data: bytes, path) -> tuple[dict, int]:
                 continue
             values = _floats(body, count, width)
             if values is None:
-                notes.append((f"{label} is not {count if count > 1 else ''}F{width} numbers in "
-                              f"columns 1-{count * width}; line ignored", i + 1))
+                notes.append(((f"{label} is not {count if count > 1 else ''}F{width} numbers in "
+                              f"columns 1-{count * width}; line ignored"), i + 1))
             hdr[key] = values if values is None or count > 1 else values[0]
         elif label in ("TIME OF FIRST OBS", "TIME OF LAST OBS"):
             # The body carries every epoch's own time: an unreadable line is left aside.
@@ -224,6 +224,10 @@ def parse_obs_header(data: bytes, path) -> tuple[dict, int]:
             fields_v2 += body[6:60].split()
         elif label == "SYS / SCALE FACTOR":
             last_scale = _scale_factor(hdr, body, path, i, lines, last_scale)
+        elif label == "SYS / PHASE SHIFT" and body[6:14].strip() and not _plain_decimal(body[6:14].strip()):
+            # A1,1X,A3,1X,F8.5,... (RINEX 3.05 table A2); not used by gnssrel, but not read silently
+            notes.append(((f"SYS / PHASE SHIFT value {body[6:14].strip()!r} (columns 7-14) is not a number; "
+                           "not used"), i + 1))
         elif label and label not in KNOWN_LABELS:
             shifted = _shifted_label(line)
             if shifted:
@@ -242,8 +246,8 @@ def parse_obs_header(data: bytes, path) -> tuple[dict, int]:
         for letter, (count, line_index) in declared.items():
             if count != len(fields[letter]):
                 # The types of this system are unknown: its records cannot be read, the others can.
-                notes.append((f"SYS / # / OBS TYPES for {letter} declares {count} types but lists "
-                              f"{len(fields[letter])}; the satellites of {letter} cannot be read",
+                notes.append(((f"SYS / # / OBS TYPES for {letter} declares {count} types but lists "
+                              f"{len(fields[letter])}; the satellites of {letter} cannot be read"),
                               line_index + 1))
                 del fields[letter]
         if not fields:
@@ -289,8 +293,8 @@ def _time_system_word(body: str, notes: list, line_number: int) -> str | None:
         return word
     known = [t for t in body[43:60].upper().split() if t in FILE_TIME_SCALE]
     if len(known) == 1:
-        notes.append((f"TIME OF FIRST OBS: time system {known[0]} is not in columns 49-51; taken "
-                      "from where it stands", line_number))
+        notes.append(((f"TIME OF FIRST OBS: time system {known[0]} is not in columns 49-51; taken "
+                      "from where it stands"), line_number))
         return known[0]
     return word or None
 
@@ -325,9 +329,9 @@ def _scale_factor(hdr, body, path, i, lines, last):
             if letter not in "GRECJSI":
                 _fail("SYS / SCALE FACTOR: neither system (column 1) nor factor (columns 3-6) "
                       "can be read", path, i, lines)
-            hdr["notes"].append((f"SYS / SCALE FACTOR of {letter}: factor {body[2:6].strip()!r} "
+            hdr["notes"].append(((f"SYS / SCALE FACTOR of {letter}: factor {body[2:6].strip()!r} "
                                  "(columns 3-6) is not 1, 10, 100 or 1000; the observations of "
-                                 f"system {letter} cannot be read without it", i + 1))
+                                 f"system {letter} cannot be read without it"), i + 1))
             hdr["unscalable_systems"].add(letter)
             return letter, 1
     codes = body[10:60].split()

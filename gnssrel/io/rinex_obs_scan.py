@@ -31,6 +31,9 @@ from gnssrel.io.rinex_obs_fields import (
     civil_to_datetime64,
     columns,
     decode_observation_fields,
+    lines_with_odd_bytes,
+    refused_ids,
+    repeated_in_epoch,
     seconds_field_ns,
     sv_names,
     unsigned_field,
@@ -55,6 +58,8 @@ class Scan:
     ends_with_line_end: bool = True     # False: the file's last line has no line end
     cut_line: int | None = None         # line number of the last epoch when its last line is cut short
     lines_before_first_epoch: int = 0  # non-blank lines between header and first epoch (ignored)
+    refused_ids: list = field(default_factory=list)  # (line, id as written, why) of refused satellite ids
+    unread_damage_lines: list = field(default_factory=list)  # records not requested holding a non-number
     n_epoch_records: int = 0            # every epoch record found, damaged and special ones included
     n_event_records: int = 0            # flag 2-6 records (consumed, not data)
     n_outside_window: int = 0           # data epochs outside start/end
@@ -200,7 +205,11 @@ def scan_v3(lines: Lines, fields: dict, letters, start, end, to_gpst, with_flags
     # Satellite records of the data epochs in the window.
     rec_lines, rec_owner = _record_index(epoch_idx[data] + 1, count[data])
     rec_owner = np.flatnonzero(data)[rec_owner]
-    names, name_ok = sv_names(columns(lines, rec_lines, 3))
+    m3 = columns(lines, rec_lines, 3)
+    names, name_ok = sv_names(m3, strict=True)
+    repeated = repeated_in_epoch(rec_owner, names)
+    bad_ids = refused_ids(m3, name_ok, repeated, lines.numbers(rec_lines))
+    name_ok &= ~repeated
     letter = np.array([s[:1] for s in fields], dtype="U1")
     rec_letter = names.astype("U1")
     declared = np.isin(rec_letter, letter)
@@ -216,6 +225,8 @@ def scan_v3(lines: Lines, fields: dict, letters, start, end, to_gpst, with_flags
     take = wanted & name_ok
     rec_lines, rec_owner, names = rec_lines[take], rec_owner[take], names[take]
     n_types = {s: len(codes) for s, codes in fields.items()}
+    unread = lines.numbers(np.intersect1d(other_lines, lines_with_odd_bytes(lines))).tolist() \
+        if other_lines.size else []
     n_used = np.array([n_types[s[0]] for s in names], dtype=np.int64) if names.size \
         else np.zeros(0, np.int64)
     n_max = max([n_types[s] for s in fields if letters is None or s in letters] or [0])
@@ -229,6 +240,8 @@ def scan_v3(lines: Lines, fields: dict, letters, start, end, to_gpst, with_flags
     scan.cut_line = int(lines.numbers(epoch_idx[-1])) if cut else None
     scan.all_data_times = all_data_times
     scan.undeclared_systems = undeclared
+    scan.refused_ids = bad_ids
+    scan.unread_damage_lines = unread
     scan.lines_before_first_epoch = _nonblank_before(lines, epoch_idx[0] if epoch_idx.size else n)
     return scan
 
@@ -291,6 +304,9 @@ def scan_v2(lines: Lines, codes: list, letters, start, end, to_gpst, with_flags)
     used = slot_no < c[d][list_owner][:, None]
     names, name_ok = sv_names(slots[used], blank_system="G")  # RINEX 2.11 5.1: blank = GPS
     rec_owner = d[np.repeat(list_owner, used.sum(axis=1))]
+    repeated = repeated_in_epoch(rec_owner, names)
+    bad_ids = refused_ids(slots[used], name_ok, repeated, lines.numbers(np.repeat(list_lines, used.sum(axis=1))))
+    name_ok &= ~repeated
     rec_no = slot_no[used]  # position of the satellite in its epoch's list
     first_data_line = epoch_idx[rec_owner] + 1 + k[rec_owner] + rec_no * n_per_sat
     damaged[np.unique(rec_owner[~name_ok])] = True
@@ -321,6 +337,7 @@ def scan_v2(lines: Lines, codes: list, letters, start, end, to_gpst, with_flags)
     if cut and damaged_starts and max(damaged_starts) == epoch_idx[-1]:
         scan.cut_line = int(lines.numbers(epoch_idx[-1]))
     scan.lines_before_first_epoch = _nonblank_before(lines, cand[0] if cand.size else n)
+    scan.refused_ids = bad_ids
     return scan
 
 

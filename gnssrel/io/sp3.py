@@ -28,19 +28,25 @@ from gnssrel.accounting import Ledger
 from gnssrel.errors import FileFormatError, TimeScaleError
 from gnssrel.io import precise_fields as pf
 from gnssrel.io.opening import read_bytes
+from gnssrel.io.sp3_checks import describe_epochs, off_orbit
 from gnssrel.io.sp3_header import TIME_SYSTEMS, parse_header
 from gnssrel.timescales import to_gpst
 
-__all__ = ["read_sp3"]
+__all__ = ["describe_epochs", "read_sp3"]
 
 ITEM, VITEM = "sp3_records", "sp3_velocity_records"
 
 # SP3 "bad or absent" clock value (SP3-c section 2, position and clock record).
 MISSING_CLOCK_US = 999_999.999999
-# Physical range of a position record (km): above the Earth's surface (mean radius 6371 km)
-# and below ~100 000 km (GNSS orbits reach 42 200 km; the brief of issue 9, common practice).
-# 0.000000 in all three coordinates is the format's "bad or absent" marker (SP3-c section 2).
-RADIUS_KM = (6371.0, 100_000.0)
+# Physical range of a position record (km from the geocentre).  The lowest GNSS orbit is
+# GLONASS (altitude ~19 100 km, radius ~25 500 km; GPS 26 560 km, Galileo 29 600 km), the
+# highest the GEO and IGSO orbits of BeiDou, QZSS and NavIC (radius ~42 200 km; the QZSS
+# eccentricity ~0.075 takes its apogee to ~45 300 km).  LEO satellites an SP3 file may carry
+# sit just above the Earth's surface (mean radius 6 371 km).  So a record closer than
+# 6 371 km or farther than 50 000 km is a garbled number, not a satellite (common practice;
+# orbit figures from memory).  0.000000 in all three coordinates is the format's "bad or
+# absent" marker (SP3-c section 2), kept apart below.
+RADIUS_KM = (6371.0, 50_000.0)
 MAX_SPEED_DM_S = 120_000.0  # 12 km/s: above any Earth orbit at these radii (LEO ~7.8 km/s)
 
 # Column tables (0-based, end exclusive), SP3-c/d section 2.
@@ -197,6 +203,7 @@ def _read_one(path: Path, wanted: set[str] | None) -> xr.Dataset:
     clock = np.full((len(good_t), len(svs)), np.nan)
     position[row, col] = pos["xyz"][k] * 1e3  # km -> m (SP3-c 2, position record)
     clock[row, col] = pos["clock"][k] * 1e-6  # microseconds -> s
+    _refuse_off_orbit(position, clock, good_t, svs, row, col, pos["line"][k], path, ledger)
     data = {"position_ecef_m": (("time", "sv", "axis"), position), "clock_s": (("time", "sv"), clock)}
     if is_vel.any():
         vel = _records(body, is_vel, lengths, nums, epoch_of_line, epoch_ok, epoch_reason, times,
@@ -323,6 +330,10 @@ def _records(body, mask, lengths, nums_all, epoch_of_line, epoch_ok, epoch_reaso
     drop = _Drops(ledger, path, item)
     alive = np.ones(len(idx), bool)
     alive = drop(~sv_ok, system, nums, "damaged satellite id", alive)
+    # No system has a satellite number 00 (PRNs and slots start at 1; SP3-c 3.3 uses "  0" only
+    # for unused places of the header list): a record "G00" is a garbled id.
+    alive = drop(sv_ok & (name[:, 1] == ord("0")) & (name[:, 2] == ord("0")), system, nums,
+                 "satellite number 00", alive)
     ep = epoch_of_line[idx]
     alive = drop(ep < 0, system, nums, "record before the first epoch", alive)
     ep_c = np.clip(ep, 0, None)
@@ -364,4 +375,22 @@ def _records(body, mask, lengths, nums_all, epoch_of_line, epoch_ok, epoch_reaso
         ledger.used(item, s.decode(), int(n))
     first_bad = int(nums[~alive][0]) if (~alive).any() else None
     return {"sv": sv, "time": t, "epoch": ep, "xyz": xyz, "clock": clock, "keep": alive,
-            "first_bad": first_bad}
+            "first_bad": first_bad, "line": nums}
+
+
+def _refuse_off_orbit(position, clock, times, svs, row, col, lines, path, ledger):
+    """Refuse (retire from "used", NaN in the table) positions off their satellite's orbit
+    (:func:`gnssrel.io.sp3_checks.off_orbit`: a garbled digit inside the physical range)."""
+    bad = off_orbit(position, times)
+    if not bad.any():
+        return
+    line_of = np.zeros(bad.shape, np.int64)
+    line_of[row, col] = lines
+    reason = "position off the satellite's orbit"
+    for e, s in list(zip(*np.nonzero(bad)))[:20]:
+        ledger.warn(f"SP3 record skipped: {reason}", path, int(line_of[e, s]))
+    letters = np.array([str(v)[:1] for v in svs.astype("U3")])
+    for letter in np.unique(letters):
+        ledger.retire(ITEM, letter, reason, int(bad[:, letters == letter].sum()))
+    position[bad] = np.nan
+    clock[bad] = np.nan

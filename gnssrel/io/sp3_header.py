@@ -32,6 +32,47 @@ def _time_system(line: str, path: Path, line_no: int, ledger: Ledger) -> str:
     raise FileFormatError(f"SP3 header: unknown time system {exact!r} in columns 10-12", path, line_no, line)
 
 
+# The other fields of the "##" line (SP3-c 3.2): GPS week I4, seconds of week F15.8, MJD I5,
+# fraction of day F15.13.  gnssrel takes the time from the epoch lines, so these are not used;
+# a field a strict reading refuses (e.g. "289_800.0") is said, not read silently.
+_WEEK_LINE_FIELDS = (("GPS week", 3, 7, "int"), ("seconds of week", 8, 23, 604_800.0),
+                     ("modified Julian day", 39, 44, "int"), ("fraction of day", 45, 60, 1.0))
+
+
+def _check_week_line(line: str, path: Path, line_no: int, ledger: Ledger) -> None:
+    """Warn (not used, so nothing refused) where a "##" field is not what SP3-c 3.2 says."""
+    for name, a, b, kind in _WEEK_LINE_FIELDS:
+        text = line[a:b].strip().encode()
+        if kind == "int":
+            good = text.isdigit()
+        else:
+            good = bool(STRICT_NUMBER.fullmatch(text)) and 0.0 <= float(text) < kind
+        if not good:
+            ledger.warn(f"SP3 header: {name} (columns {a + 1}-{b}) unreadable {line[a:b].strip()!r}; "
+                        "not used (the epochs give the time)", path, line_no)
+
+
+def _check_listed(line: str, path: Path, line_no: int, ledger: Ledger) -> None:
+    """Warn where an id of a "+" line (SP3-c 3.3: 17 x A1,I2 from column 10, "  0" or "000" unused)
+    is garbled."""
+    for k in range(9, 60, 3):
+        sv = line[k:k + 3]
+        if not sv.replace(" ", "").strip("0") or (sv[:1].isalpha() and sv[1:].replace(" ", "0").isdigit()
+                                              and sv.isascii()):
+            continue
+        ledger.warn(f"SP3 header: satellite id {sv!r} (columns {k + 1}-{k + 3}) of the '+' list unreadable; "
+                    "not listed", path, line_no)
+
+
+def _check_bases(line: str, path: Path, line_no: int, ledger: Ledger) -> None:
+    """Warn where a "%f" base (SP3-c 3.5: F10.7, F12.9, then unused F14.11/F18.15) is not a strict real."""
+    for token in line[2:].split():
+        if not STRICT_NUMBER.fullmatch(token.encode()):
+            ledger.warn(f"SP3 header: '%f' value {token!r} unreadable; not used (gnssrel uses no "
+                        "accuracy exponent)", path, line_no)
+            return
+
+
 def parse_header(lines: list[str], path: Path, ledger: Ledger, first: int = 0) -> tuple[dict, int]:
     """Header fields and the index of the first body line.
 
@@ -71,6 +112,7 @@ def parse_header(lines: list[str], path: Path, ledger: Ledger, first: int = 0) -
         else:
             ledger.warn("SP3 header: epoch interval (columns 25-38) unreadable; taken from the epochs",
                         path, second + 1)
+        _check_week_line(lines[second], path, second + 1, ledger)
     else:
         ledger.warn("SP3 header: no '##' line after line 1; epoch interval taken from the epochs",
                     path, second + 1)
@@ -86,6 +128,7 @@ def parse_header(lines: list[str], path: Path, ledger: Ledger, first: int = 0) -
             break
         if line.startswith("+ "):  # satellite ids, 17 per line from column 10 (SP3-c 3.3)
             listed += [line[k:k + 3] for k in range(9, 60, 3) if line[k:k + 1].isalpha()]  # "  0": unused
+            _check_listed(line, path, i + 1, ledger)
         if line.startswith("+ ") and n_sat is None:
             try:
                 n_sat = int(line[2:6])
@@ -95,6 +138,8 @@ def parse_header(lines: list[str], path: Path, ledger: Ledger, first: int = 0) -
                             path, i + 1)
         elif line.startswith("%c") and time_system is None:
             time_system = _time_system(line, path, i + 1, ledger)
+        elif line.startswith("%f"):
+            _check_bases(line, path, i + 1, ledger)
         elif line.startswith(("+", "%", "/*")) or not line.strip():
             continue
         elif line.startswith("EOF"):

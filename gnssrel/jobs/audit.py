@@ -1,7 +1,7 @@
 """``gnssrel audit``: per-observation corrections, positions and the relativity check of a receiver log.
 
 Wiring only: read the observation and navigation files, run
-:func:`gnssrel.audit.summary.audit_log`, write the tables and the summary.
+:func:`gnssrel.pipeline.stages.audit_log`, write the tables and the summary.
 """
 
 from __future__ import annotations
@@ -11,7 +11,12 @@ import logging
 import numpy as np
 
 from gnssrel.errors import GnssrelInputError, NoDataError
+from gnssrel.io import writers
 from gnssrel.jobs import common
+from gnssrel.jobs.clocks import print_receiver_clocks
+from gnssrel.orbits.spans import describe_navigation_span
+from gnssrel.progress import step
+from gnssrel.text import fmt, fmt_sigma, fmt_span, in_system_order, system_label, text_table
 
 HELP = "audit a receiver log: corrections per observation, positions, the periodic-term fit"
 DESCRIPTION = (
@@ -62,37 +67,6 @@ def _parse_position(text: str):
     return xyz
 
 
-def _decimate(obs_ds, step_s):
-    from gnssrel.jobs.accounting import decimate_observations
-
-    if not step_s:
-        return obs_ds
-    t = obs_ds["time"].values.astype("datetime64[ns]").astype("int64")
-    keep = np.mod(t, round(step_s * 1e9)) == 0
-    if not keep.any():
-        raise GnssrelInputError(f"--step {step_s}: no epoch falls on a multiple of {step_s} s")
-    return decimate_observations(obs_ds, keep)
-
-
-def _counted_precise(precise):
-    """The precise products for the accounting: the clocks apart only when clock files gave them."""
-    if precise is None:
-        return None
-    return {"orbits": precise["orbits"], "clocks": precise["clocks"] if precise.get("clock_files") else None}
-
-
-def check_log_against_navigation(obs_ds, nav, systems, path) -> None:
-    """Refuse a log whose epochs lie wholly outside the navigation records' reach (exit 2, both spans)."""
-    t = np.asarray(obs_ds["time"].values).astype("datetime64[ns]")
-    if t.size == 0:
-        return
-    nav_start, nav_end = common.navigation_span(nav, systems)
-    reach = np.timedelta64(4, "h")          # the widest validity half-window of a broadcast record
-    if t.max() < nav_start - reach or t.min() > nav_end + reach:
-        raise NoDataError(f"no overlap: the log's epochs span {common.fmt_span(t.min(), t.max())}, the "
-                          f"navigation records {common.describe_navigation_span(nav, systems)}", path)
-
-
 NO_STATE_REASONS = ("no navigation record", "no satellite state", "no precise orbit")
 MISSING_STATE_WARNING = 0.10
 """A log whose pseudoranges lack a satellite state beyond this share gets a warning even when
@@ -102,28 +76,42 @@ BENIGN_DROPS = ("system not requested", "system not audited", "another signal ch
 """Drops that are a choice or a consequence, not the cause of an audit without positions."""
 
 
-def check_something_computed(summary, ledger, path, nav, systems, obs_ds) -> str | None:
+def check_something_computed(summary, ledger, path, nav, systems, obs_ds, precise=None) -> str | None:
     """Why no position could be solved (None when some were); exit 2 when neither a position nor a
-    determined k could be computed, naming the real cause from the accounting."""
+    determined k could be computed, naming the real cause from the accounting (and the precise
+    files, with their gaps, when ``precise`` orbits are what is missing)."""
     drops = ledger.dropped("observations")
+    t = np.asarray(obs_ds["time"].values)
+    worst = max((r for r in drops if r not in BENIGN_DROPS), key=drops.get, default="")
+    precise_fault = precise is not None and t.size > 0 and worst.startswith("no precise orbit")
+    if precise_fault:        # the precise files are at fault: name them and their gaps over the log
+        from gnssrel.io.sp3 import describe_epochs
+        orbits = precise["orbits"]
+        sp3_paths = ", ".join(orbits.attrs.get("paths", [])) or None
+        hint = (f"{describe_epochs(orbits, within=(t.min(), t.max()))} (the log spans {fmt_span(t.min(), t.max())};"
+                " interpolation needs regularly spaced epochs around each time)")
     candidates = sum(ledger.count("observations", s) - sum(n for r, n in ledger.dropped("observations", s).items()
                                                            if r in BENIGN_DROPS[:3]) for s in systems)
     if summary["position"].get("n_epochs_solved", 1) and summary["position"]["median_error_3d_m"] is not None:
         missing = sum(n for r, n in drops.items() if r.startswith(NO_STATE_REASONS))
         if candidates and missing > MISSING_STATE_WARNING * candidates:   # computed, but say what is missing
-            log.warning("%s: %d of %d pseudoranges of %s have no satellite state (%s): are the navigation "
-                        "files of this station and day?", path, missing, candidates, "".join(systems),
-                        ", ".join(f"{n} {r}" for r, n in drops.items() if r.startswith(NO_STATE_REASONS)))
+            log.warning("%s: %d of %d pseudoranges of %s have no satellite state (%s): %s", path, missing,
+                        candidates, "".join(systems),
+                        ", ".join(f"{n} {r}" for r, n in drops.items() if r.startswith(NO_STATE_REASONS)),
+                        f"the precise orbits {sp3_paths}: {hint}" if precise_fault
+                        else "are the navigation files of this station and day?")
         return None
     causes = sorted(((r, n) for r, n in drops.items() if r not in BENIGN_DROPS), key=lambda kv: -kv[1])[:3]
     text = "no epoch could be solved for a position"
     if causes:
         text += ": " + "; ".join(f"{n} of {candidates} pseudoranges of {''.join(systems)}: {r}" for r, n in causes)
-    t = np.asarray(obs_ds["time"].values)
     n_sat = sum(len(nav.ephemerides[s]["sv"].unique()) for s in systems if s in nav.ephemerides)
-    if t.size:
-        text += (f" (the log spans {common.fmt_span(t.min(), t.max())}; the navigation records, "
-                 f"{n_sat} satellites of {''.join(systems)}, {common.describe_navigation_span(nav, systems)})")
+    if precise_fault:
+        text += f" (log {path}); the precise orbits: {hint}"
+        path = sp3_paths or path
+    elif t.size:
+        text += (f" (the log spans {fmt_span(t.min(), t.max())}; the navigation records, "
+                 f"{n_sat} satellites of {''.join(systems)}, {describe_navigation_span(nav, systems)})")
     determined = any(not str(f.get("status", "undetermined")).startswith("undetermined") and f.get("k") is not None
                      for f in summary["relativity_k"].values())
     if not determined:
@@ -131,65 +119,46 @@ def check_something_computed(summary, ledger, path, nav, systems, obs_ds) -> str
     return text
 
 
-def read_precise(paths, systems=None) -> dict:
-    """``{"orbits": SP3 Dataset, "clocks": Dataset with clock_s}`` from SP3 files and optional
-    RINEX clock files (told apart by content); the clock files' clocks win over the SP3's."""
-    from gnssrel.io.sp3 import read_sp3
-    from gnssrel.jobs.accounting import unique_keys
-    from gnssrel.jobs.clocks import precise_kind, read_precise_clocks
-
-    kinds = {p: precise_kind(p) for p in paths}
-    sp3_paths = [p for p, k in kinds.items() if k == "sp3"]
-    clk_paths = [p for p, k in kinds.items() if k == "clock"]
-    if not sp3_paths:
-        raise GnssrelInputError("--precise: give at least one SP3 file (the orbits); RINEX clock "
-                                "files only add clocks")
-    orbits = unique_keys(read_sp3(sp3_paths, systems=systems), "sp3_records", "position_ecef_m")
-    clocks = read_precise_clocks(clk_paths, systems)[0] if clk_paths else orbits[["clock_s"]]
-    return {"orbits": orbits, "clocks": clocks, "clock_files": bool(clk_paths)}
-
-
 def run(args) -> dict:
-    from gnssrel import read_observations
-    from gnssrel.audit.summary import audit_log, audit_summary, per_epoch_errors
-    from gnssrel.io import writers
-    from gnssrel.jobs import accounting
-    from gnssrel.progress import step
+    # deferred: the stages pull xarray and scipy (start-up of `gnssrel --help`)
+    from gnssrel.io.receiver_clocks import read_receiver_clocks
+    from gnssrel.io.receiver_fixes import read_receiver_fixes
+    from gnssrel.io.rinex_obs import read_observations
+    from gnssrel.pipeline.grid import decimate_to_step
+    from gnssrel.pipeline.inputs import (
+        check_log_against_navigation,
+        read_navigation_files,
+        read_precise,
+        receiver_rows_in_window,
+    )
+    from gnssrel.pipeline.stages import audit_log
 
     common.check_outputs(args)
     position = _parse_position(args.position) if args.position else None
     start, end = common.time_window(args)
     letters = common.parse_systems(args.systems)
     precise = read_precise(args.precise, list(letters) if letters else None) if args.precise else None
-    nav, present = common.read_navigation_files(args.nav, letters)
+    nav, present = read_navigation_files(args.nav, letters)
     systems = list(present)          # observed systems without navigation records would void every fix
     with step(f"reading {args.obs}"):
         obs_ds = read_observations(args.obs, systems=systems, start=start, end=end)
     for warning in obs_ds.attrs.get("warnings", []):   # header/body disagreements, skipped epochs
         log.warning("%s: %s", args.obs, warning)
-    obs_ds = _decimate(obs_ds, args.step)
+    obs_ds = decimate_to_step(obs_ds, args.step)
     check_log_against_navigation(obs_ds, nav, present, args.obs)
     receiver_clocks = None
     if args.receiver_clocks:
-        from gnssrel.io.receiver_clocks import read_receiver_clocks
-        from gnssrel.jobs.clocks import receiver_rows_in_window
-
         t = obs_ds["time"].values
         receiver_clocks = receiver_rows_in_window(read_receiver_clocks(args.receiver_clocks), args.receiver_clocks,
                                                   t.min(), t.max(), systems, nav=nav, present=present)
     fixes = None
     if args.receiver_fixes:
-        from gnssrel.io.receiver_fixes import read_receiver_fixes
         fixes = read_receiver_fixes(args.receiver_fixes, date_utc=args.fix_date)
-    result = audit_log(obs_ds, nav, receiver_position_ecef_m=position, systems=systems,
-                       elevation_mask_deg=args.elevation_mask, fixes=fixes, precise=precise,
-                       weighting=args.weighting, rule=args.rule,
-                       receiver_clocks=receiver_clocks)
-    summary = audit_summary(result)
-    ledger = accounting.audit_accounting(result, obs_ds, nav, systems, precise=_counted_precise(precise),
-                                         fixes=fixes, receiver_clocks=receiver_clocks)
-    summary["accounting"] = ledger.as_dict()
-    why_no_fix = check_something_computed(summary, ledger, args.obs, nav, present, obs_ds)
+    audited = audit_log(obs_ds, nav, receiver_position_ecef_m=position, systems=systems,
+                        elevation_mask_deg=args.elevation_mask, fixes=fixes, precise=precise,
+                        weighting=args.weighting, rule=args.rule, receiver_clocks=receiver_clocks)
+    summary = audited.summary
+    why_no_fix = check_something_computed(summary, audited.ledger, args.obs, nav, present, obs_ds, precise)
     if why_no_fix:
         summary["position"]["why_none"] = why_no_fix
         log.warning("%s: %s", args.obs, why_no_fix)
@@ -197,34 +166,34 @@ def run(args) -> dict:
     if times.size:
         summary["observations"].update(start=times[0], end=times[-1], time_scale="GPST")
     if args.positions:
-        table = per_epoch_errors(result)
-        for name, pos in result.positions.items():
+        table = audited.position_errors()
+        for name, pos in audited.positions.items():
             for c in ("x_m", "y_m", "z_m", "clock_m"):
                 table[f"{c[:-2]}_{name.replace('-', '_')}_m"] = pos[c].to_numpy()
         writers.write_table(table, args.positions)
-    return common.emit(args, summary, result.corrections, _print_text)
+    return common.emit(args, summary, audited.corrections, _print_text)
 
 
 def _print_text(summary: dict) -> None:
     o = summary["observations"]
-    span = f", {common.fmt_span(o['start'], o['end'])}" if "start" in o else ""
-    systems = "".join(common.in_system_order(o["systems"]))
+    span = f", {fmt_span(o['start'], o['end'])}" if "start" in o else ""
+    systems = "".join(in_system_order(o["systems"]))
     print(f"audit of a receiver log: {o['n_epochs']} epochs, {o['n_sat']} satellites of {systems}{span}")
     print(f"satellite orbits and clocks: {summary.get('clock_source', 'broadcast')}")
     fits = summary["relativity_k"]
     hypotheses = list(dict.fromkeys(h for f in fits.values() for h in f["rms_m"]))
     rows, notes = [], []
-    for s in common.in_system_order(fits):
+    for s in in_system_order(fits):
         f = fits[s]
         status, _, why = str(f["status"]).partition(":")
         if why:
-            notes.append(f"{common.system_label(s)}: {status}: {why.strip()}")
+            notes.append(f"{system_label(s)}: {status}: {why.strip()}")
         fitted = f.get("n_sat", 3) >= 3           # fewer satellites: no fit worth printing
-        rows.append((common.system_label(s), common.fmt(f["k"] if fitted else None, ".3f"),
-                     common.fmt_sigma(f["sigma"]), f"{f['expected_k']:g}", status,
-                     *(common.fmt(f["rms_m"].get(h) if fitted else None) for h in hypotheses)))
+        rows.append((system_label(s), fmt(f["k"] if fitted else None, ".3f"),
+                     fmt_sigma(f["sigma"]), f"{f['expected_k']:g}", status,
+                     *(fmt(f["rms_m"].get(h) if fitted else None) for h in hypotheses)))
     print("factor k of the periodic relativistic term in the pseudoranges (jackknife sigma; k = 1 expected)")
-    print(common.text_table(("system", "k", "sigma k", "expected k", "status",
+    print(text_table(("system", "k", "sigma k", "expected k", "status",
                              *(f"RMS {h} (m)" for h in hypotheses)), rows))
     for note in notes:
         print(f"  {note}")
@@ -242,6 +211,4 @@ def _print_text(summary: dict) -> None:
     elif fixes:
         print("receiver's own fixes: none matched an epoch of the log")
     if summary.get("receiver_clocks"):
-        from gnssrel.jobs.clocks import print_receiver_clocks
-
         print_receiver_clocks(summary["receiver_clocks"])

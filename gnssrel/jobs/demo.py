@@ -3,7 +3,7 @@
 Wiring only: find the scenario's files by their names (navigation ``*_MN.rnx``,
 ``*.SP3``, ``*.CLK``, observation logs ``*_MO.rnx`` whose first four letters name the
 receiver, and that receiver's ``<NAME>_fixes.nmea`` and ``<NAME>_satellite_clocks.csv``),
-then run :func:`gnssrel.jobs.report.analyse` and the report builder.  The manifest
+then run :func:`gnssrel.pipeline.analysis.analyse` and the report builder.  The manifest
 ``scenario.json`` is read only for the scenario's title and notice; every verdict
 comes from the analysis.
 """
@@ -15,8 +15,11 @@ import logging
 import time
 from pathlib import Path
 
+import gnssrel
 from gnssrel.errors import GnssrelInputError
+from gnssrel.io.writers import to_json_text
 from gnssrel.jobs import common
+from gnssrel.jobs.report import print_findings
 
 HELP = "the whole chain on the bundled invented scenario (sample_logs/), as a report"
 DESCRIPTION = (
@@ -46,8 +49,6 @@ def find_sample_logs(given=None) -> Path:
         if not folder.is_dir():
             raise GnssrelInputError("--logs: no such folder", folder)
         return folder
-    import gnssrel
-
     candidates = [Path(gnssrel.__file__).resolve().parents[1] / "sample_logs", Path.cwd() / "sample_logs"]
     for folder in candidates:
         if folder.is_dir() and any(folder.glob("*_MN.rnx")):
@@ -91,8 +92,8 @@ def _when(text) -> str:
 
 
 def run(args) -> dict:
-    from gnssrel.io.writers import to_json_text
-    from gnssrel.jobs.report import analyse, print_findings
+    # deferred: the analysis pulls xarray and scipy, the report matplotlib (start-up of `gnssrel --help`)
+    from gnssrel.pipeline.analysis import analyse
     from gnssrel.report.builder import check_report_folder, write_report
 
     quiet = args.quiet or args.json

@@ -7,6 +7,11 @@ import os
 import platform
 from pathlib import Path
 
+from gnssrel import __version__
+from gnssrel.constants import SYSTEMS
+from gnssrel.io.writers import to_json_text
+from gnssrel.jobs import common
+
 HELP = "show versions, available readers and systems, and the reference data found"
 
 READERS = {
@@ -21,15 +26,10 @@ LIBRARIES = ("numpy", "scipy", "pandas", "xarray", "matplotlib", "hatanaka", "py
 
 
 def add_arguments(parser):
-    from gnssrel.jobs import common
-
     common.add_json(parser, "print the information as JSON on stdout instead of the text")
 
 
 def collect() -> dict:
-    from gnssrel import __version__
-    from gnssrel.constants import SYSTEMS
-
     libs = {}
     for name in LIBRARIES:
         try:
@@ -59,8 +59,6 @@ def collect() -> dict:
 def run(args):
     info = collect()
     if args.json:
-        from gnssrel.io.writers import to_json_text
-
         print(to_json_text(info))
         return info
     print(f"gnssrel {info['gnssrel']} on Python {info['python']}")

@@ -16,9 +16,12 @@ from __future__ import annotations
 import logging
 
 import numpy as np
+import pandas as pd
 
 from gnssrel.errors import NoDataError
 from gnssrel.jobs import common
+from gnssrel.orbits.spans import describe_navigation_span, navigation_span
+from gnssrel.text import fmt, fmt_span, in_system_order, system_label, text_table
 
 HELP = "satellite positions and velocities from broadcast ephemerides; compare with SP3"
 DESCRIPTION = (
@@ -49,8 +52,6 @@ def add_arguments(parser) -> None:
 
 
 def _state_table(ds):
-    import pandas as pd
-
     codes = ds["status"].attrs["status_codes"]
     n_t, n_s = ds.sizes["time"], ds.sizes["sv"]
     table = {"time": np.repeat(ds["time"].values, n_s), "sv": np.tile(ds["sv"].values, n_t)}
@@ -90,44 +91,46 @@ def _states_summary(ds, start, end):
 
 
 def _print_table(summary):
-    span = common.fmt_span(summary["start"], summary["end"])
-    systems = common.in_system_order(summary["by_system"])
+    span = fmt_span(summary["start"], summary["end"])
+    systems = in_system_order(summary["by_system"])
     if summary["mode"] == "states":
         print(f"broadcast satellite states: {summary['n_epochs']} epochs, {span}")
-        rows = [(common.system_label(s), summary["by_system"][s]["n_sat"],
-                 common.fmt(100 * summary["by_system"][s]["ok_share"], ".1f")) for s in systems]
-        print(common.text_table(("system", "satellites", "epochs with a state (%)"), rows))
+        rows = [(system_label(s), summary["by_system"][s]["n_sat"],
+                 fmt(100 * summary["by_system"][s]["ok_share"], ".1f")) for s in systems]
+        print(text_table(("system", "satellites", "epochs with a state (%)"), rows))
         return
     print(f"broadcast minus precise (SP3) orbits: {summary['n_epochs']} SP3 epochs, {span}")
-    rows = [(common.system_label(s), e["n_sat"], common.fmt(e["median_rms_3d_m"]), common.fmt(e["max_rms_3d_m"]),
-             common.fmt(100 * e["median_coverage"], ".0f"))
+    rows = [(system_label(s), e["n_sat"], fmt(e["median_rms_3d_m"]), fmt(e["max_rms_3d_m"]),
+             fmt(100 * e["median_coverage"], ".0f"))
             for s, e in ((s, summary["by_system"][s]) for s in systems)]
-    print(common.text_table(("system", "satellites", "median 3D RMS (m)", "max 3D RMS (m)", "coverage (%)"), rows))
+    print(text_table(("system", "satellites", "median 3D RMS (m)", "max 3D RMS (m)", "coverage (%)"), rows))
 
 
 def run(args) -> dict:
-    from gnssrel.jobs import accounting
+    # deferred: the stages pull xarray and scipy (start-up of `gnssrel --help`)
+    from gnssrel.io.sp3 import read_sp3
     from gnssrel.orbits.broadcast import broadcast_states, time_grid
+    from gnssrel.orbits.compare import compare_with_precise
+    from gnssrel.orbits.precise import precise_states
+    from gnssrel.pipeline import accounting
+    from gnssrel.pipeline.grid import check_grid_size
+    from gnssrel.pipeline.inputs import read_navigation_files
 
     common.check_outputs(args)
-    nav, systems = common.read_navigation_files(args.nav, common.parse_systems(args.systems))
+    nav, systems = read_navigation_files(args.nav, common.parse_systems(args.systems))
     start, end = common.navigation_window(args, nav, systems)
     ledger = accounting.navigation_ledger(nav)
     if args.precise:
-        from gnssrel.io.sp3 import read_sp3
-        from gnssrel.orbits.compare import compare_with_precise
-        from gnssrel.orbits.precise import precise_states
-
         sp3 = read_sp3(list(args.precise), systems=systems)
         ledger.merge(accounting.precise_ledger(sp3, "sp3_records", "position_ecef_m"))
         t = sp3["time"].values
         if not args.start and not args.end:   # default: the navigation file's main day
-            day_start, day_end = common.navigation_main_day(nav, systems)
+            day_start, day_end = navigation_span(nav, systems, main_day=True)
             start, end = max(start, day_start), min(end, day_end - np.timedelta64(1, "ns"))
         times = t[(t >= start) & (t <= end)]
         if times.size == 0:
-            raise NoDataError(f"the SP3 epochs ({common.fmt_span(t.min(), t.max())}) do not overlap the "
-                              f"window {common.fmt_span(start, end)}", args.precise[0])
+            raise NoDataError(f"the SP3 epochs ({fmt_span(t.min(), t.max())}) do not overlap the "
+                              f"window {fmt_span(start, end)}", args.precise[0])
         precise = precise_states(sp3, times)
         states = broadcast_states(nav, times, systems, args.include_unhealthy, rule=args.rule)
         _check_states(states, nav, systems, start, end)
@@ -140,7 +143,7 @@ def run(args) -> dict:
         step_ns = round(args.step * 1e9)
         remainder = int(start.astype("datetime64[ns]").astype(np.int64)) % step_ns
         grid_start = start + np.timedelta64((step_ns - remainder) % step_ns, "ns")  # on multiples of step
-        common.check_grid_size(grid_start, end, args.step)
+        check_grid_size(grid_start, end, args.step)
         times = time_grid(grid_start, end, args.step)
         states = broadcast_states(nav, times, systems, args.include_unhealthy, frame=args.frame, rule=args.rule)
         _check_states(states, nav, systems, start, end)
@@ -156,6 +159,6 @@ def _check_states(states, nav, systems, start, end) -> None:
     """No state at all in the window: say why (the window and the records' span), exit 2."""
     if states.sizes.get("time", 0) and (states["status"].values == 0).any():
         return
-    raise NoDataError(f"no satellite has a broadcast state in the window {common.fmt_span(start, end)}: "
+    raise NoDataError(f"no satellite has a broadcast state in the window {fmt_span(start, end)}: "
                       f"it does not overlap the navigation records, "
-                      f"{common.describe_navigation_span(nav, systems)}")
+                      f"{describe_navigation_span(nav, systems)}")

@@ -2,9 +2,10 @@
 
 Wiring only: read the navigation files, build the GPST epoch grid, make the
 state histories (broadcast, or with ``--precise`` interpolated SP3 orbits that
-take the broadcast e, sqrt(A), E for the specification form), call
-:func:`gnssrel.relativity.engine.relativity_terms` and
-:func:`~gnssrel.relativity.engine.relativity_summary`, write the table and summary.
+take the broadcast e, sqrt(A), E for the specification form,
+:func:`gnssrel.orbits.elements.with_broadcast_elements`), call
+:func:`gnssrel.pipeline.stages.relativity_terms` and
+:func:`~gnssrel.pipeline.stages.relativity_summary`, write the table and summary.
 """
 
 from __future__ import annotations
@@ -12,9 +13,12 @@ from __future__ import annotations
 import logging
 
 import numpy as np
+import pandas as pd
 
-from gnssrel.errors import GnssrelInputError, NoDataError
+from gnssrel.errors import NoDataError
 from gnssrel.jobs import common
+from gnssrel.orbits.spans import describe_navigation_span, nav_files
+from gnssrel.text import fmt, fmt_span, in_system_order, system_label, text_table
 
 HELP = "relativistic clock terms per satellite and epoch: periodic, J2, rate, proper time"
 DESCRIPTION = (
@@ -27,10 +31,6 @@ DESCRIPTION = (
 
 log = logging.getLogger(__name__)
 DEFAULT_STEP_S = 30.0
-BROADCAST_ELEMENTS = ("eccentricity", "sqrt_a_sqrt_m", "eccentric_anomaly_rad", "inclination_rad",
-                      "argument_of_latitude_rad")
-TABLE_VARIABLES = ("periodic_icd_s", "periodic_state_s", "periodic_diff_s", "j2_periodic_s",
-                   "rate_velocity", "rate_gravity", "rate_total", "proper_time_offset_s")
 
 
 def add_arguments(parser) -> None:
@@ -45,21 +45,16 @@ def add_arguments(parser) -> None:
 
 
 def _epochs(nav, systems, args):
-    from gnssrel.orbits.broadcast import time_grid
+    # deferred: the stages pull xarray and scipy (start-up of `gnssrel --help`)
+    from gnssrel.pipeline.grid import epoch_grid
 
     start, end = common.navigation_window(args, nav, systems)
-    common.check_grid_size(start, end, args.step)
-    times = time_grid(start, end, args.step)
-    if times.size < 3:
-        if args.start or args.end:
-            window = f"between --start and --end ({common.fmt_span(start, end)})"
-        else:
-            window = (f"in the default window {common.fmt_span(start, end)}, the span of the bulk of the "
-                      f"navigation records' reference times in {common.nav_files(nav)}")
-        raise GnssrelInputError(f"only {times.size} epoch{'s' if times.size != 1 else ''} every "
-                                f"{args.step:g} s {window}: the proper-time integral needs at least 3 "
-                                "(give a wider --start/--end or a smaller --step)")
-    return times
+    if args.start or args.end:
+        window = f"between --start and --end ({fmt_span(start, end)})"
+    else:
+        window = (f"in the default window {fmt_span(start, end)}, the span of the bulk of the "
+                  f"navigation records' reference times in {nav_files(nav)}")
+    return epoch_grid(start, end, args.step, window)
 
 
 def states_for(args, nav, systems, times, ledger=None):
@@ -68,46 +63,37 @@ def states_for(args, nav, systems, times, ledger=None):
     With a ``ledger``, the navigation records no state used are retired in it, and
     the SP3 reader's counts added with the records outside the epochs retired.
     """
-    from gnssrel.jobs import accounting
+    # deferred: the stages pull xarray and scipy (start-up of `gnssrel --help`)
+    from gnssrel.io.sp3 import read_sp3
     from gnssrel.orbits.broadcast import broadcast_states
+    from gnssrel.orbits.elements import with_broadcast_elements
+    from gnssrel.orbits.precise import precise_states
+    from gnssrel.pipeline import accounting
 
-    broadcast = broadcast_states(nav, times, systems=systems,
-                                 include_unhealthy=args.include_unhealthy,
+    broadcast = broadcast_states(nav, times, systems=systems, include_unhealthy=args.include_unhealthy,
                                  rule=getattr(args, "rule", "post"))
     if ledger is not None:
         accounting.retire_navigation(ledger, nav, [broadcast], systems, times[0], times[-1],
                                      args.include_unhealthy)
     if not args.precise:
         return broadcast
-    from gnssrel.io.sp3 import read_sp3
-    from gnssrel.orbits.precise import precise_states
-
     sp3 = read_sp3(list(args.precise), systems=list(systems))
     if ledger is not None:
         ledger.merge(accounting.precise_ledger(sp3, "sp3_records", "position_ecef_m"))
-        _retire_sp3_outside(ledger, sp3, times, systems)
-    states = precise_states(sp3, times)
-    aligned = broadcast[list(BROADCAST_ELEMENTS)].reindex(sv=states["sv"].values)
-    for name in BROADCAST_ELEMENTS:
-        states[name] = aligned[name]
-    return states
-
-
-def _retire_sp3_outside(ledger, sp3, times, systems):
-    """SP3 records used: those the interpolation of the grid can reach; the others are outside."""
-    from gnssrel.jobs import accounting
-
-    accounting.retire_beyond_reach(ledger, sp3, "sp3_records", "position_ecef_m", times[0], times[-1],
-                                   accounting.sp3_reach_s(sp3), systems)
+        # SP3 records used: those the interpolation of the grid can reach; the others are outside
+        accounting.retire_beyond_reach(ledger, sp3, "sp3_records", "position_ecef_m", times[0], times[-1],
+                                       accounting.sp3_reach_s(sp3), systems)
+    return with_broadcast_elements(precise_states(sp3, times), broadcast)
 
 
 def relativity_table(ds):
     """Long table: one row per (time, sv) with a usable state; units in the column names."""
-    import pandas as pd
+    # deferred: the relativity engine pulls xarray and scipy (start-up of `gnssrel --help`)
+    from gnssrel.relativity.engine import TERM_VARIABLES
 
     n_t, n_s = ds.sizes["time"], ds.sizes["sv"]
     table = {"time": np.repeat(ds["time"].values, n_s), "sv": np.tile(ds["sv"].values.astype(str), n_t)}
-    for name in TABLE_VARIABLES:
+    for name in TERM_VARIABLES:
         table[name] = ds[name].transpose("time", "sv").values.ravel()
     table["user_applies_periodic"] = np.tile(ds["user_applies_periodic"].values, n_t)
     frame = pd.DataFrame(table)
@@ -115,17 +101,19 @@ def relativity_table(ds):
 
 
 def run(args) -> dict:
-    from gnssrel.jobs import accounting
-    from gnssrel.relativity.engine import relativity_summary, relativity_terms
+    # deferred: the stages pull xarray and scipy (start-up of `gnssrel --help`)
+    from gnssrel.pipeline import accounting
+    from gnssrel.pipeline.inputs import read_navigation_files
+    from gnssrel.pipeline.stages import relativity_summary, relativity_terms
 
     common.check_outputs(args)
-    nav, present = common.read_navigation_files(args.nav, common.parse_systems(args.systems))
+    nav, present = read_navigation_files(args.nav, common.parse_systems(args.systems))
     times = _epochs(nav, present, args)
     ledger = accounting.navigation_ledger(nav)
     states = states_for(args, nav, present, times, ledger)
     if not np.isfinite(states["position_ecef_m"].values).any():
-        raise NoDataError(f"no satellite has a usable state in the window {common.fmt_span(times[0], times[-1])}; "
-                          f"the navigation records: {common.describe_navigation_span(nav, present)}"
+        raise NoDataError(f"no satellite has a usable state in the window {fmt_span(times[0], times[-1])}; "
+                          f"the navigation records: {describe_navigation_span(nav, present)}"
                           + (f"; precise orbits: {', '.join(map(str, args.precise))}" if args.precise else ""))
     ds = relativity_terms(states)
     summary = relativity_summary(ds)
@@ -138,15 +126,16 @@ def run(args) -> dict:
 
 def _print_text(summary: dict) -> None:
     print(f"relativistic clock terms from {summary['states']} states: {summary['n_epochs']} epochs "
-          f"every {summary['step_s']:g} s, {common.fmt_span(summary['start'], summary['end'])}")
+          f"every {summary['step_s']:g} s, {fmt_span(summary['start'], summary['end'])}")
     rows = []
-    for letter in common.in_system_order(summary["by_system"]):
+    for letter in in_system_order(summary["by_system"]):
         row = summary["by_system"][letter]
         sats = [v for s, v in summary["satellites"].items() if s[0] == letter]
         periodic = max(v["periodic_max_abs_ns"] for v in sats)
         diffs = [v["icd_vs_state_max_diff_ns"] for v in sats if v["icd_vs_state_max_diff_ns"] is not None]
-        rows.append((common.system_label(letter), row["satellites"], common.fmt(row["median_rate_total"], ".5e"),
-                     common.fmt(row["median_us_per_day_total"], ".3f"), common.fmt(periodic, ".2f"),
-                     common.fmt(max(diffs) if diffs else None, ".3f")))
-    print(common.text_table(("system", "satellites", "rate vs TT (s/s)", "rate (µs/day)",
+        rows.append((system_label(letter), row["satellites"], fmt(row["median_rate_total"], ".5e"),
+                     fmt(row["median_us_per_day_total"], ".3f"), fmt(periodic, ".2f"),
+                     fmt(max(diffs) if diffs else None, ".3f")))
+    print(text_table(("system", "satellites", "rate vs TT (s/s)", "rate (µs/day)",
                              "max periodic (ns)", "max spec - state (ns)"), rows))
+

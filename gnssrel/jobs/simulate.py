@@ -5,7 +5,11 @@ from __future__ import annotations
 import json
 import logging
 
+from gnssrel.io.writers import to_json_text
 from gnssrel.jobs import common
+from gnssrel.simulate.scenario import DEFAULT_SEED
+from gnssrel.text import fmt_span
+from gnssrel.timescales import parse_time
 
 HELP = "write an invented, self-consistent scenario: nav, SP3, clock, receiver logs and fixes"
 DESCRIPTION = (
@@ -20,8 +24,6 @@ log = logging.getLogger(__name__)
 
 
 def add_arguments(parser):
-    from gnssrel.simulate.scenario import DEFAULT_SEED
-
     parser.add_argument("--output", required=True, metavar="DIR", help="folder to write (created if needed)")
     parser.add_argument("--seed", type=int, default=DEFAULT_SEED, help=f"random seed (default {DEFAULT_SEED})")
     parser.add_argument("--hours", type=float, default=3.0, metavar="HOURS",
@@ -32,16 +34,15 @@ def add_arguments(parser):
 
 
 def run(args) -> dict:
-    from gnssrel.io.writers import to_json_text
+    # deferred: the scenario writers (a dozen modules) are needed by this command only (start-up of --help)
     from gnssrel.simulate.generate import write_scenario
-    from gnssrel.timescales import parse_time
 
     manifest = write_scenario(args.output, seed=args.seed, hours=args.hours, interval_s=args.interval)
     if args.json:
         print(to_json_text(manifest))
     elif not args.quiet:
         print(f"invented scenario: {len(manifest['files'])} files in {args.output}, "
-              f"{common.fmt_span(parse_time(manifest['start'], 'GPST'), parse_time(manifest['end'], 'GPST'))}, "
+              f"{fmt_span(parse_time(manifest['start'], 'GPST'), parse_time(manifest['end'], 'GPST'))}, "
               f"seed {args.seed}")
         for r in manifest["receivers"]:
             state = "faulty: periodic term " + r["fault"]["mode"] if r["faulty"] else "correct firmware"

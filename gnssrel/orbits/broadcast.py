@@ -2,20 +2,16 @@
 
 ``broadcast_states(nav, times)`` returns the DEVELOPERS.md state-history
 Dataset on a (time, sv) grid for every system in the navigation data:
-Keplerian systems through ``keplerian.kepler_states``, GLONASS through
-``glonass.glonass_states``, each (epoch, satellite) served by the record that
+each system through its orbit model (:mod:`gnssrel.orbits.models`: Keplerian
+elements, or GLONASS's state vector), each (epoch, satellite) served by the record that
 ``selection.select_ephemerides`` chooses under the named rule (``"post"`` by
 default).  Epochs without a usable record are NaN, with the reason in ``status``
 (codes in ``attrs["status_codes"]``, the rule in ``attrs["selection_rule"]``).
 
-Broadcast clock polynomial, ``clock_poly_s`` (no periodic relativistic term, no group delay):
-
-* Keplerian systems: a_f0 + a_f1 dt + a_f2 dt^2, dt = t - toc (IS-GPS-200
-  20.3.3.3.3.1; Galileo OS SIS ICD 5.1.4; BDS-SIS-ICD-B1I 5.2.4.10).
-* GLONASS: -tau_n + gamma_n (t - t_b) (GLONASS ICD 2008 3.3.3 / A.3.1.2; the
-  contract's ``clock_bias_s`` is the file's -tau_n, ``relative_frequency_bias`` is gamma_n).
-
-dt is differenced in integer nanoseconds (``timescales.seconds_between``).
+Broadcast clock polynomial, ``clock_poly_s`` (no periodic relativistic term, no group
+delay): :func:`gnssrel.orbits.models.clock_polynomial_s` (a_f0 + a_f1 dt + a_f2 dt^2 with
+the week crossover; GLONASS -tau_n + gamma_n (t - t_b)).  ``toe`` is the record's reference
+time (t_b for GLONASS).
 """
 
 from __future__ import annotations
@@ -27,12 +23,11 @@ import xarray as xr
 
 from gnssrel.constants import SYSTEM_ORDER
 from gnssrel.orbits.frames import OMEGA_ECI_RAD_S, ecef_to_eci
-from gnssrel.orbits.glonass import glonass_states
-from gnssrel.orbits.keplerian import kepler_states
+from gnssrel.orbits.models import clock_polynomial_s, orbit_model
 from gnssrel.orbits.selection import DEFAULT_RULE, get_rule, select_ephemerides, status_codes
-from gnssrel.timescales import as_datetime64, seconds_between
+from gnssrel.systems import system_model
+from gnssrel.timescales import as_datetime64
 
-KEPLER_SYSTEMS = "GECJ"
 AXES = ("x", "y", "z")
 _FLOAT_VARIABLES = ("clock_poly_s", "eccentricity", "sqrt_a_sqrt_m", "eccentric_anomaly_rad",
                     "argument_of_latitude_rad", "inclination_rad", "radius_m")
@@ -61,18 +56,11 @@ def _system_block(table, letter: str, times: np.ndarray, include_unhealthy: bool
     picked = rows[valid]
     t_valid = np.broadcast_to(times[:, None], rows.shape)[valid]
     cols = {c: table[c].to_numpy()[picked] for c in table.columns if c not in ("sv", "line")}
-    if letter == "R":
-        states = glonass_states(cols, t_valid)
-        dt = seconds_between(t_valid, cols["toc"])
-        clock = cols["clock_bias_s"] + cols["relative_frequency_bias"] * dt
-        toe = cols["toc"]
-        ecc = sqrt_a = np.full(picked.size, np.nan)
-    else:
-        states = kepler_states(cols, t_valid, letter)
-        dt = seconds_between(t_valid, cols["toc"])
-        clock = cols["clock_bias_s"] + cols["clock_drift_s_per_s"] * dt \
-            + cols["clock_drift_rate_s_per_s2"] * dt * dt
-        toe, ecc, sqrt_a = cols["toe"], cols["eccentricity"], cols["sqrt_a_sqrt_m"]
+    states = orbit_model(letter).evaluate(cols, t_valid, letter)
+    clock = clock_polynomial_s(cols, t_valid, letter)
+    toe = cols[system_model(letter).reference_column]
+    ecc = cols.get("eccentricity", np.full(picked.size, np.nan))
+    sqrt_a = cols.get("sqrt_a_sqrt_m", np.full(picked.size, np.nan))
 
     def grid(values, fill=np.nan, dtype=np.float64, tail=()):
         out = np.full((n_time, n_sv) + tail, fill, dtype=dtype)

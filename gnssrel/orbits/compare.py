@@ -18,7 +18,7 @@ import numpy as np
 import pandas as pd
 import xarray as xr
 
-from gnssrel.orbits.frames import OMEGA_ECI_RAD_S
+from gnssrel.orbits.frames import OMEGA_ECI_RAD_S, inertial_velocity
 
 PER_SATELLITE_COLUMNS = ("sv", "system", "n_epochs", "n_precise_epochs", "coverage",
                          "rms_3d_m", "rms_radial_m", "rms_along_m", "rms_cross_m",
@@ -29,8 +29,7 @@ def orbital_frame_components(difference_m: np.ndarray, position_m: np.ndarray,
                              velocity_ecef_m_per_s: np.ndarray) -> np.ndarray:
     """Radial, along, cross components (..., 3) of ``difference_m`` (..., 3)."""
     r = position_m
-    w = OMEGA_ECI_RAD_S
-    v = velocity_ecef_m_per_s + np.stack((-w * r[..., 1], w * r[..., 0], np.zeros_like(r[..., 0])), -1)
+    v = inertial_velocity(r, velocity_ecef_m_per_s, OMEGA_ECI_RAD_S)
     e_r = r / np.linalg.norm(r, axis=-1, keepdims=True)
     h = np.cross(r, v)
     e_c = h / np.linalg.norm(h, axis=-1, keepdims=True)
@@ -45,7 +44,7 @@ def _rms(values: np.ndarray, mask: np.ndarray) -> np.ndarray:
 
 
 def compare_with_precise(broadcast_ds: xr.Dataset, precise_ds: xr.Dataset):
-    """Per-satellite statistics and the summary dictionary of issue 2.
+    """Per-satellite statistics and the summary dictionary of the ``orbits --precise`` command.
 
     Both Datasets follow the state-history contract; they are aligned on their
     common times and satellites.  Returns (DataFrame with ``PER_SATELLITE_COLUMNS``,

@@ -25,6 +25,7 @@ from collections.abc import Mapping
 import numpy as np
 
 from gnssrel.constants import GLONASS
+from gnssrel.orbits.frames import inertial_velocity, osculating_elements
 from gnssrel.timescales import seconds_between
 
 MAX_STEP_S = 60.0
@@ -64,27 +65,6 @@ def integrate_state(state0: np.ndarray, accel_ls: np.ndarray, dt_s: np.ndarray) 
     return s
 
 
-def osculating_angles(position_m: np.ndarray, velocity_ecef_m_per_s: np.ndarray) -> dict:
-    """Radius, inclination and argument of latitude of the inertial (osculating) orbit.
-
-    The inertial velocity is v + w x r (ICD Table 3.2 rate); angles from the
-    angular-momentum vector h = r x v_inertial.
-    """
-    w = GLONASS.omega_earth_rad_s
-    r = position_m
-    v = velocity_ecef_m_per_s + np.stack((-w * r[..., 1], w * r[..., 0], np.zeros_like(r[..., 0])), -1)
-    h = np.cross(r, v)
-    h_norm = np.linalg.norm(h, axis=-1)
-    radius = np.linalg.norm(r, axis=-1)
-    inclination = np.arccos(np.clip(h[..., 2] / h_norm, -1.0, 1.0))
-    node = np.stack((-h[..., 1], h[..., 0], np.zeros_like(h[..., 0])), -1)  # z x h
-    node_norm = np.linalg.norm(node, axis=-1)
-    cos_u = np.einsum("...i,...i->...", node, r) / (node_norm * radius)
-    sin_u = r[..., 2] / (radius * np.sin(inclination))
-    u = np.arctan2(sin_u, cos_u)
-    return {"radius_m": radius, "inclination_rad": inclination, "argument_of_latitude_rad": u}
-
-
 def glonass_states(records: Mapping, t_gpst) -> dict:
     """GLONASS states at GPST times from broadcast records.
 
@@ -108,5 +88,7 @@ def glonass_states(records: Mapping, t_gpst) -> dict:
     out = {"position_ecef_m": pos, "velocity_ecef_m_per_s": vel,
            "eccentric_anomaly_rad": np.full(shape, np.nan), "tk_s": np.broadcast_to(dt, shape).copy()}
     with np.errstate(invalid="ignore", divide="ignore"):
-        out.update(osculating_angles(pos, vel))
+        elements = osculating_elements(pos, inertial_velocity(pos, vel, GLONASS.omega_earth_rad_s),
+                                       GLONASS.gm_m3_s2)      # ICD Table 3.2 rate and mu
+        out.update({k: elements[k] for k in ("radius_m", "inclination_rad", "argument_of_latitude_rad")})
     return out

@@ -28,7 +28,7 @@ from collections.abc import Mapping
 import numpy as np
 
 from gnssrel.constants import SYSTEMS
-from gnssrel.orbits.frames import ecef_to_eci
+from gnssrel.orbits.frames import ecef_to_eci, omega_cross_r, rotate_z
 from gnssrel.timescales import SYSTEM_TIME_SCALE, seconds_between, to_week_seconds
 
 KEPLER_TOLERANCE_RAD = 1e-15
@@ -61,14 +61,6 @@ def solve_kepler(mean_anomaly_rad, eccentricity) -> np.ndarray:
             break
         previous = worst
     return big_e
-
-
-def _rotation_z(angle):
-    """R_Z as printed in BDS-SIS-ICD-B1I 5.2.4.12 (passive): [[c, s, 0], [-s, c, 0], [0, 0, 1]]."""
-    c, s = np.cos(angle), np.sin(angle)
-    zero, one = np.zeros_like(c), np.ones_like(c)
-    return np.stack((np.stack((c, s, zero), -1), np.stack((-s, c, zero), -1),
-                     np.stack((zero, zero, one), -1)), -2)
 
 
 def _toe_seconds_of_week(elements: Mapping, toe, letter: str) -> np.ndarray:
@@ -162,20 +154,16 @@ def kepler_states(elements: Mapping, t_gpst, system: str, frame: str = "ecef") -
 def _beidou_geo_rotation(pos, vel, tk, is_geo, omega_e):
     """BDS-SIS-ICD-B1I 5.2.4.12: [X Y Z]_k = R_Z(Omega_e t_k) R_X(-5 deg) [X Y Z]_GK.
 
-    R_X(phi) = [[1,0,0],[0,c,s],[0,-s,c]]; the velocity adds d R_Z/dt (the
-    GK frame turns at -Omega_e relative to the Earth).
+    R_X(phi) = [[1,0,0],[0,c,s],[0,-s,c]], R_Z(a) = [[c,s,0],[-s,c,0],[0,0,1]] (passive); the
+    velocity adds d R_Z/dt (the GK frame turns at -Omega_e relative to the Earth).
     """
     c5, s5 = np.cos(BEIDOU_GEO_TILT_RAD), np.sin(BEIDOU_GEO_TILT_RAD)
     rx = np.array([[1.0, 0.0, 0.0], [0.0, c5, s5], [0.0, -s5, c5]])
     angle = omega_e * np.where(np.isnan(tk), 0.0, tk)
-    rz = _rotation_z(angle)
-    c, s = np.cos(angle), np.sin(angle)
-    zero = np.zeros_like(c)
-    drz = omega_e * np.stack((np.stack((-s, c, zero), -1), np.stack((-c, -s, zero), -1),
-                              np.stack((zero, zero, zero), -1)), -2)
     p_tilt = pos @ rx.T
     v_tilt = vel @ rx.T
-    geo_pos = np.einsum("...ij,...j->...i", rz, p_tilt)
-    geo_vel = np.einsum("...ij,...j->...i", rz, v_tilt) + np.einsum("...ij,...j->...i", drz, p_tilt)
+    # R_Z(angle) r = rotate_z(r, -angle) (passive); d(R_Z r)/dt = R_Z (-omega x r) for r fixed
+    geo_pos = rotate_z(p_tilt, -angle)
+    geo_vel = rotate_z(v_tilt - omega_cross_r(p_tilt, omega_e), -angle)
     mask = np.broadcast_to(np.asarray(is_geo)[..., None], pos.shape)
     return np.where(mask, geo_pos, pos), np.where(mask, geo_vel, vel)

@@ -22,11 +22,12 @@ motion over a few hours are negligible here), interpolates there, and turns
 the derivative back into an ECEF velocity (v_ecef = v_inertial - omega x r).
 
 Clocks: linear interpolation between the two neighbouring samples, none
-across a gap (:func:`gnssrel.clocks.interpolation.interpolate_clock`).
+across a gap (:func:`gnssrel.orbits.interpolation.interpolate_clock`).
 
-Status codes: 0 ok; 4 outside the precise data (before the first or after the
-last sample, or a satellite the product lacks); 5 gap in the precise data
-(a sample of the window is missing, or the window spans missing epochs).
+Status codes (:mod:`gnssrel.orbits.status`, one table with the broadcast codes): 0 ok;
+6 outside the precise data (before the first or after the last sample, or a satellite
+the product lacks); 7 gap in the precise data (a sample of the window is missing, or
+the window spans missing epochs).
 The clock has no status of its own: ``clock_s`` is NaN where it is missing.
 """
 
@@ -35,18 +36,17 @@ from __future__ import annotations
 import numpy as np
 import xarray as xr
 
-from gnssrel.clocks.interpolation import GAP_FACTOR, interpolate_clock, nominal_interval_s
 from gnssrel.constants import OMEGA_EARTH_IERS_RAD_S
 from gnssrel.errors import GnssrelInputError
+from gnssrel.orbits.frames import ecef_velocity, rotate_z
+from gnssrel.orbits.interpolation import GAP_FACTOR, interpolate_clock, nominal_interval_s
+from gnssrel.orbits.status import PRECISE_CODES, STATUS_GAP, STATUS_OK, STATUS_OUTSIDE, codes_of
 from gnssrel.timescales import as_datetime64, seconds_between
 
-__all__ = ["STATUS_CODES", "lagrange_weights", "precise_states"]
+__all__ = ["STATUS_CODES", "STATUS_GAP", "STATUS_OK", "STATUS_OUTSIDE", "lagrange_weights", "precise_states"]
 
-STATUS_OK = 0
-STATUS_OUTSIDE = 4
-STATUS_GAP = 5
-STATUS_CODES = {STATUS_OK: "ok", STATUS_OUTSIDE: "outside precise data",
-                STATUS_GAP: "gap in precise data"}
+STATUS_CODES = codes_of(PRECISE_CODES)
+"""The codes precise states give: rows of the one table :data:`gnssrel.orbits.status.STATUS_CODES`."""
 
 _CHUNK_ELEMENTS = 4_000_000  # gathered window values per block (bounds memory)
 
@@ -89,16 +89,6 @@ def _windows(sample_s: np.ndarray, target_s: np.ndarray, n: int) -> np.ndarray:
     return np.clip(start, 0, n_samples - n)
 
 
-def _rotate_z(xyz: np.ndarray, angle: np.ndarray) -> np.ndarray:
-    """Rotate vectors (..., 3) by ``angle`` (broadcast to xyz[..., 0]) about z, counter-clockwise."""
-    c, s = np.cos(angle), np.sin(angle)
-    out = np.empty_like(xyz)
-    out[..., 0] = c * xyz[..., 0] - s * xyz[..., 1]
-    out[..., 1] = s * xyz[..., 0] + c * xyz[..., 1]
-    out[..., 2] = xyz[..., 2]
-    return out
-
-
 def precise_states(sp3: xr.Dataset, times, svs=None, order: int = 10,
                    frame: str = "ecef") -> xr.Dataset:
     """Interpolate SP3 orbits and clocks to ``times`` (GPST).
@@ -131,7 +121,8 @@ def precise_states(sp3: xr.Dataset, times, svs=None, order: int = 10,
     n_samples = len(sample_times)
     if n_samples < n:
         raise GnssrelInputError(f"the precise product has {n_samples} epochs, fewer than the "
-                                f"{n} the interpolation window needs")
+                                f"{n} the interpolation window needs (truncated?)",
+                                ", ".join(str(p) for p in sp3.attrs.get("paths", [])) or None)
 
     origin = sample_times[0]
     sample_s = seconds_between(sample_times, origin)
@@ -159,13 +150,11 @@ def precise_states(sp3: xr.Dataset, times, svs=None, order: int = 10,
         deriv = deriv / step_s
         samples = pos_in[w]                                     # (m, n, n_sv, 3)
         if frame == "inertial":
-            samples = _rotate_z(samples, (OMEGA_EARTH_IERS_RAD_S * dt)[:, :, None])
+            samples = rotate_z(samples, (OMEGA_EARTH_IERS_RAD_S * dt)[:, :, None])
         position[a:b] = np.einsum("tj,tjsa->tsa", weights, samples)
         velocity[a:b] = np.einsum("tj,tjsa->tsa", deriv, samples)
     if frame == "inertial":  # inertial velocity in the frozen axes -> ECEF: v - omega x r
-        w_e = OMEGA_EARTH_IERS_RAD_S
-        velocity[..., 0] += w_e * position[..., 1]
-        velocity[..., 1] -= w_e * position[..., 0]
+        velocity = ecef_velocity(position, velocity, OMEGA_EARTH_IERS_RAD_S)
     clock = interpolate_clock(sample_s, clk_in, target_s, max_gap_s=GAP_FACTOR * step_s)
 
     status_p = np.where(np.isnan(position).any(axis=2) | spans_gap[:, None], STATUS_GAP, STATUS_OK)

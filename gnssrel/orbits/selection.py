@@ -87,6 +87,18 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
+from gnssrel.orbits.status import (
+    BROADCAST_CODES,
+    STATUS_EXCLUDED,
+    STATUS_NO_EPHEMERIS,
+    STATUS_NO_SATELLITE,
+    STATUS_NOT_TRANSMITTED,
+    STATUS_OK,
+    STATUS_UNHEALTHY,
+    codes_of,
+)
+from gnssrel.systems import system_model
+
 RULE_NAMES = ("post", "receiver")
 DEFAULT_RULE = "post"
 RULE_HELP = ("which broadcast record serves each epoch: 'post' (default) the nearest valid record, "
@@ -94,24 +106,14 @@ RULE_HELP = ("which broadcast record serves each epoch: 'post' (default) the nea
              "receiver in real time would have them")
 """The ``--rule`` option's help text, the same in every command."""
 
-STATUS_CODES = {
-    0: "ok",
-    1: "no record within the maximum age",
-    2: "unhealthy",
-    3: "excluded by rule",
-    4: "ephemeris not yet transmitted",
-    5: "satellite not in navigation data",
-}
-"""Status of each (epoch, satellite) state (DEVELOPERS.md contract codes); code 4 happens under the
-receiver rule only.  :func:`status_codes` gives the texts with the limits of the systems at hand."""
-
-STATUS_OK, STATUS_NO_EPHEMERIS, STATUS_UNHEALTHY, STATUS_EXCLUDED, STATUS_NOT_TRANSMITTED, \
-    STATUS_NO_SATELLITE = range(6)
+STATUS_CODES = codes_of(BROADCAST_CODES)
+"""Status of each (epoch, satellite) state: the broadcast rows of the one table of codes,
+:data:`gnssrel.orbits.status.STATUS_CODES`; code 4 happens under the receiver rule only.
+:func:`status_codes` gives the texts with the limits of the systems at hand."""
 
 
 @dataclass(frozen=True)
 class SystemLimits:
-    reference_column: str                 # toe or toc (t_b)
     max_age_after_s: float                # t - reference <= this (t at or after the reference)
     max_age_before_s: float               # reference - t <= this (t before the reference)
     use_fit_interval: bool = False        # both limits = fit_interval_h / 2 where the record gives one
@@ -123,18 +125,19 @@ class SystemLimits:
 
 
 SYSTEM_LIMITS = {
-    "G": SystemLimits("toe", 2 * 3600.0, 2 * 3600.0, use_fit_interval=True,
+    "G": SystemLimits(2 * 3600.0, 2 * 3600.0, use_fit_interval=True,
                       limit_text="GPS within half the fit interval of toe (2 h for 4 h)"),
-    "J": SystemLimits("toe", 1 * 3600.0, 1 * 3600.0, use_fit_interval=True,
+    "J": SystemLimits(1 * 3600.0, 1 * 3600.0, use_fit_interval=True,
                       limit_text="QZSS within half the fit interval of toe (1 h for 2 h)"),
-    "E": SystemLimits("toe", 3 * 3600.0, 0.5 * 3600.0, preferred_nav_types=("INAV", "FNAV"),
+    "E": SystemLimits(3 * 3600.0, 0.5 * 3600.0, preferred_nav_types=("INAV", "FNAV"),
                       excluded_svs=("E14", "E18"), napa_is_unhealthy=True,
                       limit_text="Galileo 3 h after toe, 30 min before (E14, E18: 1.5 h after, none before)",
                       satellite_limits=(("E14", 1.5 * 3600.0, 0.0), ("E18", 1.5 * 3600.0, 0.0))),
-    "C": SystemLimits("toe", 2 * 3600.0, 1 * 3600.0, limit_text="BeiDou 2 h after toe, 1 h before"),
-    "R": SystemLimits("toc", 20 * 60.0, 20 * 60.0, limit_text="GLONASS within 20 min of t_b"),
+    "C": SystemLimits(2 * 3600.0, 1 * 3600.0, limit_text="BeiDou 2 h after toe, 1 h before"),
+    "R": SystemLimits(20 * 60.0, 20 * 60.0, limit_text="GLONASS within 20 min of t_b"),
 }
-"""Per-system limits shared by both rules (figures and sources in the module text).
+"""Per-system limits shared by both rules (figures and sources in the module text), counted
+from each record's reference time (``reference_column`` of :data:`gnssrel.systems.SYSTEM_MODELS`).
 E14 and E18 (in eccentric orbits after their 2014 launch, flagged unhealthy) are excluded, and
 when asked for (``include_unhealthy``) kept to their own, shorter limits (module text)."""
 
@@ -219,6 +222,7 @@ def select_ephemerides(table: pd.DataFrame, svs, times, system: str, include_unh
     """
     chosen_rule = get_rule(rule)
     limits = SYSTEM_LIMITS[system]
+    reference = system_model(system).reference_column
     t_ns = _ns(times)
     n_time, svs = t_ns.size, list(svs)
     row_index = np.full((n_time, len(svs)), -1, dtype=np.int64)
@@ -233,9 +237,9 @@ def select_ephemerides(table: pd.DataFrame, svs, times, system: str, include_unh
         rows_at = np.flatnonzero(sv_col == sv)
         if rows_at.size == 0:
             continue
-        rows_at = _newest_first(table, rows_at, limits.reference_column)
+        rows_at = _newest_first(table, rows_at, reference)
         rows = table.iloc[rows_at]
-        dt_s = (t_ns[:, None] - _ns(rows[limits.reference_column])[None, :]) / 1e9
+        dt_s = (t_ns[:, None] - _ns(rows[reference])[None, :]) / 1e9
         after, before = _limits_s(rows, limits, sv)
         # nearness: |t - reference| in units of the limit on its side (in time when <= 1); where the
         # limits are equal on both sides it orders the records as plain |t - reference| does

@@ -35,21 +35,45 @@ from gnssrel.constants import (
     OMEGA_EARTH_IERS_RAD_S,
     SYSTEMS,
 )
+from gnssrel.orbits.frames import osculating_elements  # public here too (__all__)
 from gnssrel.relativity.potential import inertial_speed_squared, potential_m2_s2
+from gnssrel.systems import system_model
 
-__all__ = ["j2_amplitude_s", "j2_periodic_s", "osculating_elements", "periodic_icd_s", "periodic_state_s",
-           "rate_terms"]
+__all__ = ["PERIODIC_FORMS", "j2_amplitude_s", "j2_periodic_s", "osculating_elements", "periodic_icd_s",
+           "periodic_state_s", "periodic_term_s", "rate_terms"]
+
+PERIODIC_FORMS = {"icd": "F e sqrt(A) sin E (broadcast elements)", "state": "-2 r.v/c^2 (broadcast state)"}
+"""The two forms of the periodic term, as :func:`periodic_term_s` names them."""
 
 
-def periodic_icd_s(eccentricity, sqrt_a_sqrt_m, eccentric_anomaly_rad, system: str = "G") -> np.ndarray:
+def periodic_icd_s(eccentricity, sqrt_a_sqrt_m, eccentric_anomaly_rad, system: str = "G",
+                   f_s_sqrt_m=None) -> np.ndarray:
     """Interface-specification form ``F e sqrt(A) sin(E)`` in seconds.
 
     IS-GPS-200 20.3.3.3.3.1 (dt_r), ``F = -2 sqrt(mu)/c^2`` with the system's own
     mu (Galileo OS SIS ICD 5.1.4, BDS-SIS-ICD 5.2.4.10, IS-QZSS-PNT: same form;
-    section numbers from memory).
+    section numbers from memory).  ``f_s_sqrt_m`` (broadcastable, e.g. one F per
+    satellite) replaces the F of ``system`` where given.
     """
-    f = SYSTEMS[system].f_s_sqrt_m
+    f = SYSTEMS[system].f_s_sqrt_m if f_s_sqrt_m is None else f_s_sqrt_m
     return f * np.asarray(eccentricity) * np.asarray(sqrt_a_sqrt_m) * np.sin(eccentric_anomaly_rad)
+
+
+def periodic_term_s(system: str, position_m, velocity_m_per_s, eccentricity=None, sqrt_a_sqrt_m=None,
+                    eccentric_anomaly_rad=None) -> tuple[np.ndarray, str]:
+    """The periodic term as the user of a system's broadcast message computes it, and its form.
+
+    The one place that decides the form: F e sqrt(A) sin E (:func:`periodic_icd_s`) where
+    the system's records carry Keplerian elements (``has_elements`` of
+    :data:`gnssrel.systems.SYSTEM_MODELS`) and elements are given (finite somewhere);
+    -2 r.v/c^2 (:func:`periodic_state_s`, REFERENCE-CHECKS 1.3, the equivalent vector form)
+    otherwise (GLONASS, precise states).  Returns (values, key of :data:`PERIODIC_FORMS`).
+    Whether the user *applies* it is ``user_applies_periodic`` of the same model.
+    """
+    if system_model(system).has_elements and eccentricity is not None \
+            and np.any(np.isfinite(eccentricity)):
+        return periodic_icd_s(eccentricity, sqrt_a_sqrt_m, eccentric_anomaly_rad, system), "icd"
+    return periodic_state_s(position_m, velocity_m_per_s), "state"
 
 
 def periodic_state_s(position_m, velocity_m_per_s) -> np.ndarray:
@@ -124,33 +148,3 @@ def rate_terms(position_m, velocity_m_per_s, *, frame: str = "ecef",
     rate_gravity = L_G - potential_m2_s2(position_m, gm, j2, a_earth) / C_M_S**2
     return {"rate_velocity": rate_velocity, "rate_gravity": rate_gravity,
             "rate_total": rate_velocity + rate_gravity}
-
-
-def osculating_elements(position_eci_m, velocity_eci_m_per_s, gm: float) -> dict:
-    """Osculating two-body elements of inertial states (shapes ``(..., 3)`` -> ``(...)``).
-
-    Returns ``semi_major_axis_m``, ``eccentricity``, ``eccentric_anomaly_rad``,
-    ``inclination_rad``, ``argument_of_latitude_rad``.  They are defined from the
-    state with ``gm`` by the two-body relations, so ``sqrt(gm a) e sin(E) = r.v``
-    holds identically: with these elements the specification form equals the
-    state form (to rounding).  A precise (SP3) state has no broadcast elements;
-    the job takes e, sqrt(A), E from the broadcast ephemeris for the comparison.
-    """
-    r = np.asarray(position_eci_m, dtype=float)
-    v = np.asarray(velocity_eci_m_per_s, dtype=float)
-    rn = np.linalg.norm(r, axis=-1)
-    v2 = np.einsum("...i,...i->...", v, v)
-    rv = np.einsum("...i,...i->...", r, v)
-    a = 1.0 / (2.0 / rn - v2 / gm)
-    e_cos = 1.0 - rn / a
-    e_sin = rv / np.sqrt(gm * a)
-    h = np.cross(r, v)
-    hn = np.linalg.norm(h, axis=-1)
-    inclination = np.arccos(np.clip(h[..., 2] / hn, -1.0, 1.0))
-    node = np.stack([-h[..., 1], h[..., 0], np.zeros_like(hn)], axis=-1)  # z x h
-    nn = np.linalg.norm(node, axis=-1)
-    cos_u = np.einsum("...i,...i->...", node, r) / (nn * rn)
-    sin_u = np.einsum("...i,...i->...", np.cross(node, r), h) / (nn * rn * hn)
-    return {"semi_major_axis_m": a, "eccentricity": np.hypot(e_cos, e_sin),
-            "eccentric_anomaly_rad": np.arctan2(e_sin, e_cos), "inclination_rad": inclination,
-            "argument_of_latitude_rad": np.arctan2(sin_u, cos_u)}

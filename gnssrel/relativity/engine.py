@@ -37,6 +37,7 @@ from gnssrel.relativity.clock_terms import (
     j2_amplitude_s,
     j2_periodic_s,
     osculating_elements,
+    periodic_icd_s,
     periodic_state_s,
     rate_terms,
 )
@@ -78,7 +79,7 @@ def relativity_terms(states: xr.Dataset) -> xr.Dataset:
         u = _element(states, "argument_of_latitude_rad", osc["argument_of_latitude_rad"])
         from_broadcast = np.isfinite(states["eccentricity"].values.astype(float)) \
             if "eccentricity" in states else np.zeros(valid.shape, dtype=bool)
-        icd = f_sv * e * sqrt_a * np.sin(big_e)                       # IS-GPS-200 20.3.3.3.3.1
+        icd = periodic_icd_s(e, sqrt_a, big_e, f_s_sqrt_m=f_sv)       # IS-GPS-200 20.3.3.3.3.1
         state = periodic_state_s(pos, vel)
         j2 = j2_periodic_s(sqrt_a**2, incl, u)                        # Kouba 2004, derived here
         rates = rate_terms(pos, vel, frame="ecef")                    # IERS 2010 ch. 10
@@ -121,7 +122,7 @@ def _max_abs_ns(x):
 
 
 def relativity_summary(ds: xr.Dataset) -> dict:
-    """Per-satellite and per-system figures of a :func:`relativity_terms` result (issue 3 keys).
+    """Per-satellite and per-system figures of a :func:`relativity_terms` result (the keys of the ``relativity`` command's summary, README).
 
     Rates are secular: the slope of the proper-time integral after removing the
     state-form periodic term, so they equal the orbit mean of ``rate_*``.

@@ -34,6 +34,7 @@ from __future__ import annotations
 import numpy as np
 
 from gnssrel.constants import A_EARTH_IERS_M, GM_EARTH_IERS_M3_S2, J2_IERS, OMEGA_EARTH_IERS_RAD_S
+from gnssrel.orbits.frames import inertial_velocity
 
 __all__ = [
     "eci_velocity",
@@ -69,11 +70,7 @@ def potential_m2_s2(position_m, gm: float = GM_EARTH_IERS_M3_S2, j2: float = J2_
 def eci_velocity(position_ecef_m, velocity_ecef_m_per_s,
                  omega_rad_s: float = OMEGA_EARTH_IERS_RAD_S) -> np.ndarray:
     """Inertial velocity ``v_ecef + omega x r`` with omega along z (frames coincident at the instant)."""
-    p = np.asarray(position_ecef_m, dtype=float)
-    v = np.array(velocity_ecef_m_per_s, dtype=float, copy=True)
-    v[..., 0] -= omega_rad_s * p[..., 1]
-    v[..., 1] += omega_rad_s * p[..., 0]
-    return v
+    return inertial_velocity(position_ecef_m, velocity_ecef_m_per_s, omega_rad_s)
 
 
 def inertial_speed_squared(position_ecef_m, velocity_ecef_m_per_s,

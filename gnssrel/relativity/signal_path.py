@@ -23,6 +23,7 @@ from __future__ import annotations
 import numpy as np
 
 from gnssrel.constants import C_M_S, GM_EARTH_IERS_M3_S2, GPS
+from gnssrel.orbits.frames import rotate_z
 
 __all__ = [
     "equator_circumnavigation_sagnac_s",
@@ -67,9 +68,7 @@ def shapiro_m(sat_pos_m, rx_pos_m, gm: float = GM_EARTH_IERS_M3_S2, gamma: float
 def rotate_about_z(position_m, angle_rad) -> np.ndarray:
     """Coordinates of fixed points in a frame turned by ``angle_rad`` about z
     (the Earth-fixed frame ``angle/omega`` seconds later): R3(angle) r."""
-    p = np.asarray(position_m, dtype=float)
-    c, s = np.cos(angle_rad), np.sin(angle_rad)
-    return np.stack([c * p[..., 0] + s * p[..., 1], -s * p[..., 0] + c * p[..., 1], p[..., 2]], axis=-1)
+    return rotate_z(position_m, -np.asarray(angle_rad, dtype=float))
 
 
 def light_time(state_function, rx_pos_ecef_m, t_receive_gpst, *, omega: float = OMEGA_GPS_RAD_S,

@@ -13,6 +13,7 @@ from matplotlib.lines import Line2D
 
 from gnssrel.report.layout import ReportFigure, as_plot_times, gpst_axis, new_figure, panel_letter, systems_in
 from gnssrel.report.palette import HYPOTHESIS_LABELS, HYPOTHESIS_STYLES, OWN, system_colour, system_name
+from gnssrel.text import fmt_k, in_system_order
 
 FIT_HYPOTHESES = ("applied", "omitted", "reversed", "doubled")
 
@@ -21,8 +22,6 @@ def audit_figure(receiver) -> ReportFigure | None:
     summary = receiver.audit_summary
     if not summary:
         return None
-    from gnssrel.jobs.common import fmt_k
-
     fits = summary["relativity_k"]
     errors = receiver.position_errors
     fig = new_figure(9.4, 4.9)
@@ -83,8 +82,6 @@ def _caption(receiver, fits) -> str:
         fix_text = (f" The receiver's own fixes (vermilion dots) lie closest to '{fixes['closest']}' "
                     f"(median distance {d[fixes['closest']]:.2f} m, margin {fixes['margin_m']:.2f} m over the "
                     "next hypothesis).")
-    from gnssrel.jobs.common import fmt_k, in_system_order
-
     ks = "; ".join(f"{system_name(k)} k = {fmt_k(fits[k]['k'], fits[k]['sigma'])}" for k in in_system_order(fits))
     return (
         f"(a) Receiver {receiver.name}: RMS of the ionosphere-free pseudorange residuals after fitting a receiver "

@@ -21,6 +21,7 @@ from gnssrel.report.layout import (
     systems_in,
 )
 from gnssrel.report.palette import OWN, REFERENCE, system_colour, system_name
+from gnssrel.text import fmt_k
 
 
 def convention_rows(content) -> list[dict]:
@@ -87,8 +88,6 @@ def clocks_figure(content) -> ReportFigure | None:
                                 markeredgewidth=1.4, label="receiver's own table")],
                 loc="lower right", fontsize=7)
     panel_letter(ax_k, "b" if ax_series.get_visible() else "a")
-    from gnssrel.jobs.common import fmt_k
-
     listing = "; ".join(f"{r['series']} {r['system']}: k = {fmt_k(r['k'], r['sigma'])} "
                         f"({r['convention']})" for r in rows)
     source = content.clock_source or "the precise clocks"

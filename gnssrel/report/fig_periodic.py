@@ -7,6 +7,7 @@ own F) against the state form -2 r.v/c^2, and their difference.
 from __future__ import annotations
 
 import numpy as np
+from matplotlib.lines import Line2D
 
 from gnssrel.report.layout import (
     ReportFigure,
@@ -52,8 +53,6 @@ def periodic_figure(content) -> ReportFigure:
                      markersize=3.2, markerfacecolor="white", markeredgecolor=colour, markeredgewidth=0.9)
         bottom.plot(x, diff[:, k], color=colour, linewidth=0.8, alpha=0.8)
     letters = systems_in(svs)
-    from matplotlib.lines import Line2D
-
     handles = system_handles(letters) + [
         Line2D([], [], color="#555555", linewidth=1.4, label="F e √A sin E (solid)"),
         Line2D([], [], color="#555555", linestyle="none", marker="o", markerfacecolor="white",

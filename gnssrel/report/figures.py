@@ -8,6 +8,8 @@ observation log) is left out.
 
 from __future__ import annotations
 
+from pathlib import Path
+
 from gnssrel.report.fig_audit import audit_figure
 from gnssrel.report.fig_clocks import clocks_figure
 from gnssrel.report.fig_coverage import coverage_figure
@@ -32,8 +34,6 @@ def build_figures(content) -> list[ReportFigure]:
 
 def save_figure(item: ReportFigure, folder, formats=("png", "svg")) -> dict[str, str]:
     """Write the figure as ``<key>.png`` and ``<key>.svg`` into ``folder``; returns format -> path."""
-    from pathlib import Path
-
     out = {}
     with gnssrel_style():
         for fmt in formats:

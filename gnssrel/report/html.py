@@ -10,6 +10,9 @@ from importlib import resources
 import numpy as np
 import pandas as pd
 
+from gnssrel import __version__
+from gnssrel.text import fmt_sigma
+
 CAUTION = (
     "gnssrel is an analysis tool. It is not for navigation and not for safety-of-life use. Its results "
     "can be wrong; where they matter, defer to the interface specifications, to local codes and to "
@@ -18,8 +21,8 @@ CAUTION = (
 REFERENCES = (
     "IS-GPS-200 (Navstar GPS Space Segment / Navigation User Interfaces), sections 3.3.1.1 and 20.3.3.3.3.1.",
     "Galileo Open Service Signal-In-Space Interface Control Document (OS SIS ICD), satellite clock correction.",
-    "BeiDou Navigation Satellite System Signal In Space Interface Control Document (BDS-SIS-ICD), "
-    "satellite clock correction.",
+    ("BeiDou Navigation Satellite System Signal In Space Interface Control Document (BDS-SIS-ICD), "
+    "satellite clock correction."),
     "GLONASS Interface Control Document (navigational radiosignal in bands L1, L2), clock and ephemeris terms.",
     "IERS Conventions (2010), IERS Technical Note 36, G. Petit and B. Luzum (eds.), chapters 10 and 11.",
     "N. Ashby (2003), Relativity in the Global Positioning System, Living Reviews in Relativity 6, 1.",
@@ -56,8 +59,6 @@ def _column_formatter(name: str, values):
         return _fmt
     big = max(finite)
     if "σ" in name:
-        from gnssrel.jobs.common import fmt_sigma
-
         return lambda v: _fmt(v) if not isinstance(v, (float, np.floating)) or math.isnan(v) else html.escape(fmt_sigma(v))
     if big >= 1e6 or (0 < big < 1e-3):
         return lambda v: f"{v:.4g}" if isinstance(v, (float, np.floating)) and math.isfinite(v) else _fmt(v)
@@ -106,16 +107,14 @@ def _accounting_section(content, df) -> str:
 def render_html(content, figures: list[tuple], tables: dict, shown_tables=()) -> str:
     """The page.  ``figures``: (ReportFigure, png_bytes, {format: file name}); ``tables``: stem ->
     (heading, DataFrame); ``shown_tables``: the stems printed in full (the others are linked)."""
-    from gnssrel import __version__
-
     t0, t1 = content.time_span
-    parts = [f"<!DOCTYPE html><html lang='en'><head><meta charset='utf-8'>"
+    parts = [(f"<!DOCTYPE html><html lang='en'><head><meta charset='utf-8'>"
              f"<meta name='viewport' content='width=device-width, initial-scale=1'>"
-             f"<title>{html.escape(content.title)}</title><style>{_css()}</style></head><body><main>",
+             f"<title>{html.escape(content.title)}</title><style>{_css()}</style></head><body><main>"),
              "<header class='masthead'>",
              f"<h1>{html.escape(content.title)}</h1>",
-             f"<div class='meta'>{str(t0)[:19].replace('T', ' ')} to {str(t1)[:19].replace('T', ' ')} GPST · "
-             f"{content.relativity.sizes['sv']} satellites · gnssrel {__version__}</div></header>",
+             (f"<div class='meta'>{str(t0)[:19].replace('T', ' ')} to {str(t1)[:19].replace('T', ' ')} GPST · "
+             f"{content.relativity.sizes['sv']} satellites · gnssrel {__version__}</div></header>"),
              f"<div class='caution'><strong>Caution.</strong> {html.escape(CAUTION)}</div>"]
     if content.description:
         parts.append(f"<p class='lead'>{html.escape(content.description)}</p>")

@@ -13,6 +13,7 @@ import numpy as np
 from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
 
+from gnssrel.constants import SYSTEM_ORDER
 from gnssrel.report.palette import SYSTEM_COLOURS, system_name
 
 
@@ -70,7 +71,7 @@ def panel_letter(ax, letter: str) -> None:
 
 def systems_in(svs) -> list[str]:
     """System letters of ``svs`` in gnssrel's order (G E C J R)."""
-    order = "GECJR"
+    order = SYSTEM_ORDER
     present = {str(s)[0] for s in svs}
     return [s for s in order if s in present] + sorted(present - set(order))
 

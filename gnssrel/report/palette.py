@@ -16,6 +16,10 @@ from __future__ import annotations
 
 from contextlib import contextmanager
 
+import matplotlib
+
+from gnssrel.constants import SYSTEM_ORDER, SYSTEMS
+
 SYSTEM_COLOURS = {
     "G": "#1D4F91",   # GPS: deep cobalt
     "E": "#F2A541",   # Galileo: saffron
@@ -23,7 +27,7 @@ SYSTEM_COLOURS = {
     "R": "#C2639F",   # GLONASS: orchid
     "J": "#7A5C2E",   # QZSS: umber
 }
-SYSTEM_NAMES = {"G": "GPS", "E": "Galileo", "C": "BeiDou", "R": "GLONASS", "J": "QZSS"}
+SYSTEM_NAMES = {letter: SYSTEMS[letter].name for letter in SYSTEM_ORDER}
 INK = "#111111"
 OWN = "#C8412B"
 """What a receiver itself produced (its fixes, its clock table): vermilion, no system uses it."""
@@ -100,7 +104,5 @@ def system_name(letter: str) -> str:
 @contextmanager
 def gnssrel_style():
     """Apply :data:`STYLE` inside a ``with`` block (rcParams restored afterwards)."""
-    import matplotlib
-
     with matplotlib.rc_context(STYLE):
         yield

@@ -5,6 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
+from gnssrel.accounting import READ, USED, Ledger
 from gnssrel.report.fig_clocks import convention_rows
 from gnssrel.report.palette import system_name
 
@@ -91,8 +92,6 @@ def receivers_table(content) -> pd.DataFrame | None:
 
 def accounting_table(content) -> pd.DataFrame | None:
     """Every item read per system: read, used, and the drops by reason (the report's accounting)."""
-    from gnssrel.accounting import READ, USED, Ledger
-
     if not content.accounting:
         return None
     ledger = Ledger.from_dict(content.accounting)

@@ -1,4 +1,4 @@
-"""Hostile-input campaign of gnssrel (issue 9, "nothing lost, nothing silently wrong").
+"""Hostile-input campaign of gnssrel (README: "Nothing lost, nothing silently wrong").
 
 Damaged copies of small valid inputs (cut from the invented demo data in
 ``sample_logs/``, plus RINEX 2.11 texts derived from them) go through
@@ -13,7 +13,9 @@ One case again, with the command line that reproduces it::
 
     python -m tests.hostile --replay 1:123
 
-Modules: ``seeds`` (the valid inputs), ``mutations`` (the damage),
-``runner`` (one forked child per case, the classification), ``campaign``
-(cases from (seed, index), the run, the report, the replay).
+Modules: ``seeds`` (the valid inputs); ``mutations`` (the catalogue of damage,
+made in ``field_damage`` and ``file_damage`` with the helpers of ``damage``);
+``runner`` (one forked child per case, the classification); ``campaign``
+(cases from (seed, index), the baselines, the run, the replay); ``report``
+(tables, failure groups, Markdown, comparison with an earlier run).
 """

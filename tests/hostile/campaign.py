@@ -198,6 +198,8 @@ def run_one(ctx: Context, case: Case, baselines: dict, keep: bool = False) -> di
             said = runner.warned(res, summary)
             record["changed"] = diff[:8]
             record["warned"] = said
+            if not isinstance(summary.get("accounting"), dict):
+                record["flags"].append("no_accounting_in_summary")
             off = runner.unbalanced(summary)
             if off:
                 record["flags"].append("accounting_unbalanced")
@@ -287,7 +289,7 @@ def replay(case_id: str, keep_dir: Path | None) -> int:
 
 def main(argv=None) -> int:
     p = argparse.ArgumentParser(prog="python -m tests.hostile",
-                                description="Hostile-input campaign of gnssrel (issue 9): damaged copies of "
+                                description="Hostile-input campaign of gnssrel: damaged copies of "
                                             "the demo data through orbits, relativity, clocks and audit.")
     p.add_argument("--cases", type=int, default=2000, help="number of cases (default 2000)")
     p.add_argument("--seed", type=int, default=1, help="campaign seed (default 1)")

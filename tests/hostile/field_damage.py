@@ -9,12 +9,11 @@ from __future__ import annotations
 
 import re
 
-from .damage import (  # noqa: F401
+from .damage import (
     NUMBER,
     Mutated,
     finish_line,
     fit,
-    header_length,
     line_end,
     lines_of,
     pick_line,

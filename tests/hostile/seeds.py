@@ -7,7 +7,8 @@ from the RINEX 3.04 seeds (GPS only).  Nothing is read from the reference data.
 
 Window: observations, precise clocks, fixes and clock tables 10:00-10:14:30 GPST
 (30 epochs); navigation records with reference hour 10, 11 or 12 (file time);
-SP3 09:00-11:45 (12 epochs, enough for the interpolation).
+SP3 09:00-11:45 (12 epochs; the interpolation needs 10, so one damaged SP3 epoch
+leaves the log without precise orbits: a test of what the messages then say).
 """
 
 from __future__ import annotations

@@ -1,4 +1,4 @@
-"""The accounting of a command: one ledger of everything read and what the stages did with it.
+"""The accounting of an analysis: one ledger of everything read and what the stages did with it.
 
 Readers attach their own counts (``nav.accounting``, ``ds.attrs["accounting"]``,
 ``df.attrs["accounting"]``; see :mod:`gnssrel.accounting`).  A command gathers
@@ -6,8 +6,8 @@ them into one :class:`~gnssrel.accounting.Ledger` with :func:`gather`, and the
 stages retire what they kept aside: navigation records never chosen for a state
 (:func:`retire_navigation`), precise records outside the window
 (:func:`retire_outside_window`), observations the audit could not use
-(:mod:`gnssrel.audit.observables`).  :func:`print_block` shows the result after
-the command's table: only the lines with drops, then a total line.
+(:mod:`gnssrel.audit.observables`).  :func:`block_lines` gives the text shown after
+a command's table: only the lines with drops, then a total line.
 
 Before a reader counts, its item is counted here from the table it returned
 (every row read and kept), so the balance read == used + dropped always holds.
@@ -18,6 +18,8 @@ from __future__ import annotations
 import numpy as np
 
 from gnssrel.accounting import READ, USED, Ledger
+from gnssrel.audit.observables import pseudorange_counts
+from gnssrel.orbits import selection
 
 UNHEALTHY = "unhealthy"
 EXCLUDED = "excluded by rule"
@@ -91,8 +93,6 @@ def union_rows(*row_dicts) -> dict[str, np.ndarray]:
 def _validity_s(table, letter: str) -> tuple[np.ndarray, np.ndarray]:
     """Each record's validity after and before its reference time, s (the selection limits;
     4 h either way where the selection module gives none)."""
-    from gnssrel.orbits import selection
-
     n = len(table)
     limits = getattr(selection, "SYSTEM_LIMITS", {}).get(letter)
     own_limits = getattr(selection, "_limits_s", None)
@@ -110,8 +110,6 @@ def _validity_s(table, letter: str) -> tuple[np.ndarray, np.ndarray]:
 
 def _unusable(table, letter: str, include_unhealthy: bool) -> tuple[np.ndarray, np.ndarray]:
     """(unhealthy, excluded by rule) per record, as the selection rules judge them."""
-    from gnssrel.orbits import selection
-
     n = len(table)
     if include_unhealthy:
         return np.zeros(n, bool), np.zeros(n, bool)
@@ -237,11 +235,6 @@ def block_lines(accounting: dict | None, verbose: bool = False) -> list[str]:
     return out
 
 
-def print_block(summary: dict, verbose: bool = False) -> None:
-    """Print the accounting block of a summary (nothing when it has none)."""
-    for line in block_lines(summary.get("accounting"), verbose):
-        print(line)
-
 
 DUPLICATE = "duplicate epoch or satellite (first kept)"
 
@@ -295,8 +288,6 @@ NO_EPOCH = "no epoch of the log at its time"
 def observation_ledger(obs_ds) -> Ledger:
     """The observation reader's ledger (a copy), with the pseudoranges and epochs of the Dataset
     counted where the reader did not count them."""
-    from gnssrel.audit.observables import pseudorange_counts
-
     ledger = gather(ledger_of(obs_ds))
     for letter, n in pseudorange_counts(obs_ds).items():
         _ensure_counted(ledger, "observations", letter, n)
@@ -308,8 +299,6 @@ def observation_ledger(obs_ds) -> Ledger:
 def decimate_observations(obs_ds, keep):
     """``obs_ds`` at the epochs of the boolean ``keep``; the pseudoranges and epochs left out are
     retired as not on the --step grid in the result's ``attrs["accounting"]``."""
-    from gnssrel.audit.observables import pseudorange_counts
-
     ledger = observation_ledger(obs_ds)
     for letter, n in pseudorange_counts(obs_ds, ~keep).items():
         ledger.retire("observations", letter, NOT_ON_STEP, n)
@@ -358,9 +347,14 @@ def audit_accounting(result, obs_ds, nav, systems, precise=None, fixes=None, rec
             fix_ledger.retire("fixes", fix_system, NO_EPOCH, max(len(fixes) - int(matched), 0))
         ledger.merge(fix_ledger)
     if receiver_clocks is not None:
-        rows_ledger = gather(ledger_of(receiver_clocks))
-        letters = receiver_clocks["sv"].astype(str).str[0].to_numpy()
-        for letter in np.unique(letters):
-            _ensure_counted(rows_ledger, "receiver_clock_rows", str(letter), int((letters == letter).sum()))
-        ledger.merge(rows_ledger)
+        ledger.merge(receiver_clock_rows_ledger(receiver_clocks))
     return ledger
+
+
+def receiver_clock_rows_ledger(receiver_clocks) -> Ledger:
+    """The clock-table reader's ledger (a copy), with the rows of the table counted where it did not count them."""
+    rows_ledger = gather(ledger_of(receiver_clocks))
+    letters = receiver_clocks["sv"].astype(str).str[0].to_numpy()
+    for letter in np.unique(letters):
+        _ensure_counted(rows_ledger, "receiver_clock_rows", str(letter), int((letters == letter).sum()))
+    return rows_ledger

@@ -19,6 +19,8 @@ import math
 
 import numpy as np
 
+from gnssrel.text import fmt_k, in_system_order
+
 CONVENTION_TO_HYPOTHESIS = {"includes-periodic": "applied", "excludes-periodic": "omitted",
                             "reversed-periodic": "reversed", "doubled-periodic": "doubled"}
 """What a receiver clock table's convention means for how the firmware treats the term."""
@@ -94,8 +96,6 @@ def receiver_verdict(name: str, audit_summary: dict | None, clock_check: dict | 
     if fixes and fixes.get("closest"):
         parts.append(f"fixes closest to '{fixes['closest']}', margin {margin:.2f} m")
     if clock_check:
-        from gnssrel.jobs.common import fmt_k, in_system_order
-
         ks = ", ".join(f"{s} {fmt_k(clock_check['by_system'][s]['convention_k'], clock_check['by_system'][s]['convention_k_sigma'])}"
                        for s in in_system_order(clock_check["by_system"]))
         parts.append(f"clock table k = {ks}")
