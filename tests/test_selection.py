@@ -3,9 +3,9 @@
 from __future__ import annotations
 
 import numpy as np
-import pandas as pd
 import pytest
 from conftest import refdata_file
+from ephemeris_tables import ephemeris_table
 
 from gnssrel.orbits.broadcast import broadcast_states, time_grid
 from gnssrel.orbits.selection import STATUS_CODES, select_ephemerides
@@ -17,12 +17,7 @@ def _at(hours):
     return T0 + np.round(np.asarray(hours, dtype=float) * 3600e9).astype("int64").astype("timedelta64[ns]")
 
 
-def _table(rows):
-    frame = pd.DataFrame(rows)
-    for col in ("toe", "toc", "transmission_time"):
-        if col in frame:
-            frame[col] = frame[col].astype("datetime64[ns]")
-    return frame.sort_values(["sv", "toc"]).reset_index(drop=True)
+_table = ephemeris_table
 
 
 def gps_table():

@@ -8,8 +8,8 @@ final; BeiDou from the BDS ICD's 1-h update interval, from memory).
 from __future__ import annotations
 
 import numpy as np
-import pandas as pd
 import pytest
+from ephemeris_tables import ephemeris_table
 
 from gnssrel.orbits.broadcast import broadcast_states
 from gnssrel.orbits.selection import (
@@ -32,12 +32,7 @@ def _h(hours):
     return _at(np.asarray(hours, dtype=float) * 3600)
 
 
-def _table(rows):
-    frame = pd.DataFrame(rows)
-    for col in ("toe", "toc", "transmission_time"):
-        if col in frame:
-            frame[col] = frame[col].astype("datetime64[ns]")
-    return frame.sort_values(["sv", "toc"]).reset_index(drop=True)
+_table = ephemeris_table
 
 
 def _beidou_hour_change():
