@@ -17,7 +17,7 @@ from gnssrel import __version__, progress
 from gnssrel.errors import GnssrelInputError
 
 # Subcommand name -> module in gnssrel.jobs, in the order `--help` lists them.
-JOBS = ("orbits", "relativity", "clocks", "audit", "report", "demo", "simulate", "info")
+JOBS = ("orbits", "relativity", "clocks", "audit", "campaign", "report", "demo", "simulate", "info")
 
 EXIT_OK, EXIT_INTERNAL, EXIT_BAD_INPUT = 0, 1, 2
 EXIT_BROKEN_PIPE = 141
@@ -83,7 +83,7 @@ def main(argv=None) -> int:
         sys.stdout.flush()
     except BrokenPipeError:
         return _broken_pipe()
-    return EXIT_OK
+    return getattr(args, "exit_status", EXIT_OK)   # a job may say more (campaign: 3, some tasks failed)
 
 
 def _broken_pipe() -> int:

@@ -18,7 +18,10 @@ DESCRIPTION = (
     "fictitious analysis centre, and for each of two fictitious receivers a RINEX 3.04 "
     "observation file, its own position fixes (NMEA GGA) and its own satellite-clock table "
     "(CSV).  One receiver's firmware is correct; the other leaves out the periodic "
-    "relativistic clock term.  scenario.json says which.  Same seed, same bytes.")
+    "relativistic clock term.  scenario.json says which.  Same seed, same bytes.  "
+    "With --stations N --days D: an invented campaign instead, N receivers (every second one "
+    "faulty) logging each day, one folder per day, with campaign.csv listing each station-day's "
+    "files and scenario.json the truth.")
 
 log = logging.getLogger(__name__)
 
@@ -26,27 +29,55 @@ log = logging.getLogger(__name__)
 def add_arguments(parser):
     parser.add_argument("--output", required=True, metavar="DIR", help="folder to write (created if needed)")
     parser.add_argument("--seed", type=int, default=DEFAULT_SEED, help=f"random seed (default {DEFAULT_SEED})")
-    parser.add_argument("--hours", type=float, default=3.0, metavar="HOURS",
-                        help="length of the receiver logs (default 3 h)")
+    parser.add_argument("--hours", type=float, default=None, metavar="HOURS",
+                        help="length of the receiver logs (default 3 h; 1 h per day in a campaign)")
+    parser.add_argument("--stations", type=int, default=None, metavar="N",
+                        help="write a campaign of N receivers (up to 8; default 2 with --days)")
+    parser.add_argument("--days", type=int, default=None, metavar="D",
+                        help="write a campaign of D consecutive days (default 1 with --stations)")
     parser.add_argument("--step", "--interval", dest="interval", type=float, default=30.0, metavar="SECONDS",
                         help="observation interval of the receiver logs (default 30 s)")
     common.add_json(parser, "print the scenario manifest as JSON on stdout instead of the text")
 
 
 def run(args) -> dict:
-    # deferred: the scenario writers (a dozen modules) are needed by this command only (start-up of --help)
-    from gnssrel.simulate.generate import write_scenario
-
-    manifest = write_scenario(args.output, seed=args.seed, hours=args.hours, interval_s=args.interval)
+    write = _campaign if args.stations is not None or args.days is not None else _scenario
+    manifest, lines = write(args)
     if args.json:
         print(to_json_text(manifest))
     elif not args.quiet:
-        print(f"invented scenario: {len(manifest['files'])} files in {args.output}, "
-              f"{fmt_span(parse_time(manifest['start'], 'GPST'), parse_time(manifest['end'], 'GPST'))}, "
-              f"seed {args.seed}")
-        for r in manifest["receivers"]:
-            state = "faulty: periodic term " + r["fault"]["mode"] if r["faulty"] else "correct firmware"
-            print(f"  receiver {r['marker']}: {state}; its fixes are off by "
-                  f"{r['fix_error_3d_m']['median']:.1f} m (median 3D)")
+        print("\n".join(lines))
     log.debug("manifest: %s", json.dumps(manifest["files"]))
     return manifest
+
+
+def _scenario(args) -> tuple[dict, list[str]]:
+    # deferred: the scenario writers (a dozen modules) are needed by this command only (start-up of --help)
+    from gnssrel.simulate.generate import write_scenario
+
+    hours = 3.0 if args.hours is None else args.hours
+    manifest = write_scenario(args.output, seed=args.seed, hours=hours, interval_s=args.interval)
+    lines = [(f"invented scenario: {len(manifest['files'])} files in {args.output}, "
+              f"{fmt_span(parse_time(manifest['start'], 'GPST'), parse_time(manifest['end'], 'GPST'))}, "
+              f"seed {args.seed}")]
+    for r in manifest["receivers"]:
+        state = "faulty: periodic term " + r["fault"]["mode"] if r["faulty"] else "correct firmware"
+        lines.append(f"  receiver {r['marker']}: {state}; its fixes are off by "
+                     f"{r['fix_error_3d_m']['median']:.1f} m (median 3D)")
+    return manifest, lines
+
+
+def _campaign(args) -> tuple[dict, list[str]]:
+    # deferred: as in _scenario
+    from gnssrel.simulate.campaign import DEFAULT_CAMPAIGN_HOURS, write_campaign
+
+    hours = DEFAULT_CAMPAIGN_HOURS if args.hours is None else args.hours
+    stations = 2 if args.stations is None else args.stations
+    days = 1 if args.days is None else args.days
+    manifest = write_campaign(args.output, stations, days, seed=args.seed, hours=hours, interval_s=args.interval)
+    return manifest, [
+        (f"invented campaign: {stations} stations x {days} days = {len(manifest['station_days'])} station-days, "
+         f"{len(manifest['files'])} files in {args.output} (campaign.csv lists them), "
+         f"{hours:g} h logs at {args.interval:g} s, seed {args.seed}"),
+        (f"  faulty firmware (periodic term omitted): {', '.join(manifest['faulty_receivers']) or 'none'}; "
+         f"correct: {', '.join(manifest['correct_receivers']) or 'none'}")]

@@ -57,6 +57,8 @@ EXPECTED = {  # what the audit should conclude, per firmware periodic-term mode
 
 def _span_code(hours: float) -> str:
     minutes = round(hours * 60)
+    if minutes == 24 * 60:
+        return "01D"          # RINEX long names give a whole day as one day
     return f"{minutes // 60:02d}H" if minutes % 60 == 0 else f"{minutes:02d}M"
 
 
@@ -81,22 +83,41 @@ def file_names(scn) -> dict:
     return names
 
 
-def write_scenario(output_dir, seed: int = DEFAULT_SEED, hours: float = 3.0, interval_s: float = 30.0,
-                   start=DEFAULT_START_GPST) -> dict:
-    """Generate and write the scenario under ``output_dir`` (created if needed); returns the manifest."""
+def check_span(hours: float, interval_s: float) -> None:
+    """Refuse a log length or interval the writers cannot honour (one line, exit 2)."""
     if not 0.25 <= hours <= 24:
         raise GnssrelInputError(f"--hours must be between 0.25 and 24, not {hours}")
     if not 1 <= interval_s <= 300 or (3600 * hours) % interval_s:
         raise GnssrelInputError(f"--interval must be 1-300 s and divide the span, not {interval_s}")
+
+
+def write_scenario(output_dir, seed: int = DEFAULT_SEED, hours: float = 3.0, interval_s: float = 30.0,
+                   start=DEFAULT_START_GPST) -> dict:
+    """Generate and write the scenario under ``output_dir`` (created if needed); returns the manifest."""
+    check_span(hours, interval_s)
     out = Path(output_dir)
     out.mkdir(parents=True, exist_ok=True)
     scn = build_scenario(seed=seed, start=start, hours=hours, interval_s=interval_s)
     rng = np.random.default_rng([seed, 1])
     names = file_names(scn)
-    created = calendar(scn.end + np.timedelta64(2, "h"))
-    date = f"{created[0]:04d}{created[1]:02d}{created[2]:02d} {created[3]:02d}{created[4]:02d}00 UTC"
-    week, sow = to_week_seconds(np.array([scn.start]), "GPST")
+    date = creation_date(scn)
+    ephemerides = write_products(out, scn, names, date)
+    receivers = [write_receiver(out, scn, rcv, names, date, rng) for rcv in scn.receivers]
 
+    manifest = scenario_manifest(scn, names, receivers, ephemerides)
+    os.chmod(write_json(manifest, out / "scenario.json"), 0o644)
+    return manifest
+
+
+def creation_date(scn) -> str:
+    """The files' creation stamp: 2 h after the logs end (a fixed function of the scenario)."""
+    created = calendar(scn.end + np.timedelta64(2, "h"))
+    return f"{created[0]:04d}{created[1]:02d}{created[2]:02d} {created[3]:02d}{created[4]:02d}00 UTC"
+
+
+def write_products(out: Path, scn, names: dict, date: str) -> dict:
+    """The navigation file, SP3 and RINEX clock of the scenario's window; returns the ephemerides."""
+    week, sow = to_week_seconds(np.array([scn.start]), "GPST")
     ephemerides = {c: reexpress(scn.reference, scn.clock, issue_times(scn, c), c) for c in "GEC"}
     write_navigation(out / names["navigation"], ephemerides, {
         "program": PROGRAM, "run_by": AGENCY, "date": date, "comments": [NOTICE],
@@ -118,59 +139,65 @@ def write_scenario(output_dir, seed: int = DEFAULT_SEED, hours: float = 3.0, int
         "program": PROGRAM, "run_by": AGENCY, "date": date, "agency": AGENCY,
         "agency_name": AGENCY_NAME, "leap_seconds": LEAP_SECONDS,
         "comments": [NOTICE, "SATELLITE CLOCKS EXCLUDE THE PERIODIC RELATIVISTIC TERM"]})
+    return ephemerides
 
-    receivers = []
+
+def write_receiver(out: Path, scn, rcv, names: dict, date: str, rng: np.random.Generator) -> dict:
+    """One receiver's observation log, fixes and clock table; returns its manifest entry."""
+    sv = list(scn.sv)
     obs_types = {c: [code for band in SIGNALS[c] for code in band] for c in "GEC"}
-    for rcv in scn.receivers:
-        sim = simulate_observables(scn, rcv, rng)
-        write_observations(out / names[f"{rcv.marker}:observations"], scn.epochs, sv,
-                           sim["observables"], obs_types, {
-                               "program": PROGRAM, "run_by": SURVEY_OFFICE, "date": date,
-                               "comments": [NOTICE, f"Site: {rcv.site.place}"],
-                               "marker": rcv.marker, "marker_number": f"{rcv.marker}-0001",
-                               "observer": "FIELD CREW 2", "agency": SURVEY_OFFICE,
-                               "receiver_serial": rcv.serial, "receiver_type": rcv.receiver_type,
-                               "receiver_version": rcv.firmware, "antenna_serial": "TWA40-" + rcv.serial[-4:],
-                               "antenna_type": rcv.antenna_type,
-                               "position_ecef_m": rcv.site.position_ecef_m,
-                               "interval_s": scn.interval_s, "leap_seconds": LEAP_SECONDS})
-        fix = firmware_fixes(scn, rcv, sim)
-        lat_rad, lon_rad, h = ecef_to_geodetic(fix["position_ecef_m"])
-        lat, lon = np.degrees(lat_rad), np.degrees(lon_rad)
-        t_utc = scn.epochs - np.timedelta64(LEAP_SECONDS, "s")
-        write_gga(out / names[f"{rcv.marker}:fixes"], t_utc, lat, lon, h,
-                  rcv.site.geoid_separation_m, fix["n_used"], fix["hdop"])
-        write_receiver_clocks(out / names[f"{rcv.marker}:satellite_clocks"], scn.epochs, sv,
-                              fix["clock_correction_s"], comments=[
-                                  (f"Satellite clock corrections applied by receiver {rcv.marker} "
-                                   f"({rcv.receiver_type}, firmware {rcv.firmware})"), NOTICE,
-                                  "time: measurement epoch; time_scale: its scale; sv: RINEX satellite name",
-                                  ("clock_correction_s: satellite clock offset from system time as the "
-                                   "firmware computed it (broadcast polynomial plus relativistic terms), "
-                                   "at signal transmission, without group delay")])
-        err3d = np.linalg.norm(fix["position_ecef_m"] - rcv.site.position_ecef_m, axis=1)
-        receivers.append({
-            "marker": rcv.marker, "site": rcv.site.marker, "receiver_type": rcv.receiver_type,
-            "firmware": rcv.firmware, "serial": rcv.serial, "antenna_type": rcv.antenna_type,
-            "periodic_term": rcv.periodic_term_mode, "faulty": rcv.periodic_term_mode != "applied",
-            "fault": None if rcv.periodic_term_mode == "applied" else {
-                "term": "periodic", "mode": rcv.periodic_term_mode,
-                "where": ["satellite_clocks", "fixes"],
-                "description": "firmware leaves out F e sqrtA sinE from the satellite clock "
-                               "correction, so its clock table and its position fixes miss it"},
-            "expected": dict(EXPECTED[rcv.periodic_term_mode], observations_relativity_k=1.0),
-            "clock_offset_s": rcv.clock_offset_s, "clock_drift_s_per_s": rcv.clock_drift_s_per_s,
-            "inter_system_bias_s": rcv.inter_system_bias_s,
-            "fix_error_3d_m": {"median": float(np.median(err3d)), "max": float(err3d.max())},
-            "files": {k.split(":")[1]: names[k] for k in names if k.startswith(rcv.marker + ":")},
-        })
-
-    manifest = _manifest(scn, names, receivers, ephemerides)
-    os.chmod(write_json(manifest, out / "scenario.json"), 0o644)
-    return manifest
+    sim = simulate_observables(scn, rcv, rng)
+    write_observations(out / names[f"{rcv.marker}:observations"], scn.epochs, sv,
+                       sim["observables"], obs_types, {
+                           "program": PROGRAM, "run_by": SURVEY_OFFICE, "date": date,
+                           "comments": [NOTICE, f"Site: {rcv.site.place}"],
+                           "marker": rcv.marker, "marker_number": f"{rcv.marker}-0001",
+                           "observer": "FIELD CREW 2", "agency": SURVEY_OFFICE,
+                           "receiver_serial": rcv.serial, "receiver_type": rcv.receiver_type,
+                           "receiver_version": rcv.firmware, "antenna_serial": "TWA40-" + rcv.serial[-4:],
+                           "antenna_type": rcv.antenna_type,
+                           "position_ecef_m": rcv.site.position_ecef_m,
+                           "interval_s": scn.interval_s, "leap_seconds": LEAP_SECONDS})
+    fix = firmware_fixes(scn, rcv, sim)
+    lat_rad, lon_rad, h = ecef_to_geodetic(fix["position_ecef_m"])
+    lat, lon = np.degrees(lat_rad), np.degrees(lon_rad)
+    t_utc = scn.epochs - np.timedelta64(LEAP_SECONDS, "s")
+    write_gga(out / names[f"{rcv.marker}:fixes"], t_utc, lat, lon, h,
+              rcv.site.geoid_separation_m, fix["n_used"], fix["hdop"])
+    write_receiver_clocks(out / names[f"{rcv.marker}:satellite_clocks"], scn.epochs, sv,
+                          fix["clock_correction_s"], comments=[
+                              (f"Satellite clock corrections applied by receiver {rcv.marker} "
+                               f"({rcv.receiver_type}, firmware {rcv.firmware})"), NOTICE,
+                              "time: measurement epoch; time_scale: its scale; sv: RINEX satellite name",
+                              ("clock_correction_s: satellite clock offset from system time as the "
+                               "firmware computed it (broadcast polynomial plus relativistic terms), "
+                               "at signal transmission, without group delay")])
+    err3d = np.linalg.norm(fix["position_ecef_m"] - rcv.site.position_ecef_m, axis=1)
+    return {
+        "marker": rcv.marker, "site": rcv.site.marker, "receiver_type": rcv.receiver_type,
+        "firmware": rcv.firmware, "serial": rcv.serial, "antenna_type": rcv.antenna_type,
+        **receiver_truth(rcv),
+        "clock_offset_s": rcv.clock_offset_s, "clock_drift_s_per_s": rcv.clock_drift_s_per_s,
+        "inter_system_bias_s": rcv.inter_system_bias_s,
+        "fix_error_3d_m": {"median": float(np.median(err3d)), "max": float(err3d.max())},
+        "files": {k.split(":")[1]: names[k] for k in names if k.startswith(rcv.marker + ":")},
+    }
 
 
-def _manifest(scn, names, receivers, ephemerides) -> dict:
+def receiver_truth(rcv) -> dict:
+    """What a receiver's firmware does with the periodic term, and what the audit should find."""
+    return {
+        "periodic_term": rcv.periodic_term_mode, "faulty": rcv.periodic_term_mode != "applied",
+        "fault": None if rcv.periodic_term_mode == "applied" else {
+            "term": "periodic", "mode": rcv.periodic_term_mode,
+            "where": ["satellite_clocks", "fixes"],
+            "description": "firmware leaves out F e sqrtA sinE from the satellite clock "
+                           "correction, so its clock table and its position fixes miss it"},
+        "expected": dict(EXPECTED[rcv.periodic_term_mode], observations_relativity_k=1.0),
+    }
+
+
+def scenario_manifest(scn, names, receivers, ephemerides) -> dict:
     E = truth.broadcast_orbit(scn, scn.epochs[:1])["eccentric_anomaly_rad"]  # for amplitudes only
     amp = np.abs(truth.periodic_s(scn, np.full_like(E, np.pi / 2)))[0]
     sats = {s: {"eccentricity": float(e), "sqrt_a_sqrt_m": float(a), "periodic_amplitude_ns": float(p * 1e9)}

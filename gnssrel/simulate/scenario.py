@@ -91,6 +91,13 @@ class Scenario:
     receivers: list
     precise_datum: tuple            # (offset s, drift s/s) of the precise product's time scale
     rng_state: dict = field(default_factory=dict)
+    reference_time: np.datetime64 | None = None  # t_ref of orbits/clocks; None: ``start``
+
+    @property
+    def t_ref(self) -> np.datetime64:
+        """The instant of the reference orbits and clock polynomials (the truth's time origin).
+        A campaign moves ``start`` to each day's log window and keeps ``t_ref`` on its first day."""
+        return self.start if self.reference_time is None else self.reference_time
 
     @property
     def end(self) -> np.datetime64:

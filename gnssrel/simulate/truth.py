@@ -25,7 +25,7 @@ def _elements(scn) -> dict:
 
 def _since_start_s(scn, t) -> np.ndarray:
     t = np.asarray(t, dtype="datetime64[ns]")
-    s = seconds_between(t, scn.start)
+    s = seconds_between(t, scn.t_ref)
     return s[:, None] if s.ndim == 1 else s
 
 
@@ -50,7 +50,7 @@ def true_orbit(scn, t) -> dict:
 
 
 def clock_polynomial_s(scn, t) -> np.ndarray:
-    """af0 + af1 (t - toc) + af2 (t - toc)^2 of the reference polynomial (toc = scenario start)."""
+    """af0 + af1 (t - toc) + af2 (t - toc)^2 of the reference polynomial (toc = ``scn.t_ref``)."""
     dt = _since_start_s(scn, t)
     c = scn.clock
     return c["af0_s"].to_numpy() + c["af1_s_per_s"].to_numpy() * dt + c["af2_s_per_s2"].to_numpy() * dt**2

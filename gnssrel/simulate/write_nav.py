@@ -31,7 +31,7 @@ def _record_lines(row, letter: str) -> list[str]:
     toc_sys = from_gpst(np.array([row.toc]), scale)[0]
     y, mo, d, h, mi, s = calendar(toc_sys)
     tx_sow = row.toe_sow_s - seconds_between(row.toe, row.transmission_time)
-    first = f"{row.sv} {y:04d} {mo:02d} {d:02d} {h:02d} {mi:02d} {int(round(s)):02d}" \
+    first = f"{row.sv} {y:04d} {mo:02d} {d:02d} {h:02d} {mi:02d} {round(s):02d}" \
         + _f(row.clock_bias_s) + _f(row.clock_drift_s_per_s) + _f(row.clock_drift_rate_s_per_s2)
     lines = [first,
              _line(row.iode, row.crs_m, row.delta_n_rad_per_s, row.mean_anomaly_rad),
