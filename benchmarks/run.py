@@ -3,7 +3,8 @@
 Each benchmark times gnssrel against a reference in the same run (the reference
 reader georinex, or a plain Python implementation) and prints the ratio, since
 these machines are too noisy for absolute times; the audit benchmark reports CPU
-seconds against the absolute targets its issue set.  Exit status: the number of
+seconds against the absolute targets its issue set; the campaign benchmark times
+`gnssrel campaign` on 2 workers against 1 (about 3 min).  Exit status: the number of
 benchmarks that missed their target (or failed).  --quick skips the slow
 georinex reference of the observation benchmark; --suite adds the whole test
 suite's wall and CPU time (minutes).
@@ -17,7 +18,7 @@ from pathlib import Path
 
 HERE = Path(__file__).resolve().parent
 BENCHMARKS = ("bench_navigation.py", "bench_states.py", "bench_relativity.py",
-              "bench_clock_reader.py", "bench_observations.py", "bench_audit.py")
+              "bench_clock_reader.py", "bench_observations.py", "bench_audit.py", "bench_campaign.py")
 OPTIONAL = {"--suite": "bench_suite.py"}
 
 

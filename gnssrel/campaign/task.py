@@ -84,6 +84,8 @@ def guarded(work, spec: dict, options: dict, task_dir: str, digest: str) -> dict
     _limit_blas_threads()
     base = {"kind": spec.get("kind", "station-day"), "station": spec["station"], "date": spec["date"],
             "obs": spec.get("obs"), "content_hash": digest}
+    for stale in Path(task_dir).glob(".*.part"):     # left by a run killed mid-write: never read, removed
+        stale.unlink(missing_ok=True)
     try:
         summary = work(spec, options, Path(task_dir))
         summary.update(base, status="ok", reason=None)

@@ -23,7 +23,7 @@ DESCRIPTION = (
     "station-days by their RINEX names (else headers), match the navigation and precise files to each "
     "by time span, print the plan, and audit every station-day as one Dask task (the stages of "
     "`gnssrel audit`). Results go to DIR: tasks/<station>_<date>/ (corrections.parquet, positions.parquet, "
-    "summary.json), campaign.parquet and campaign.csv (one row per station-day), summary.json. A rerun "
+    "summary.json), campaign.parquet and campaign.csv (one row per station-day), summary.json, report/ (HTML and figures). A rerun "
     f"skips the tasks already done with unchanged inputs and options. Exit status: 0 every task ok, "
     f"{EXIT_SOME_FAILED} some failed (each listed with its reason), 2 nothing could run or bad input, "
     "1 internal error.")
@@ -54,6 +54,8 @@ def add_arguments(parser) -> None:
                         help="skip the station-days finished by an earlier run with the same inputs and "
                              "options (default: on)")
     parser.add_argument("--summary", metavar="FILE.json", help=common.SUMMARY_HELP)
+    parser.add_argument("--report", action=argparse.BooleanOptionalAction, default=True,
+                        help="write the campaign report (HTML + figures) to DIR/report/ (default: on)")
     parser.add_argument("--dry-run", action="store_true", help="print the plan only")
     common.add_json(parser)
 
@@ -98,6 +100,10 @@ def run(args) -> dict | None:
                                extra={"output": str(out), "wall_time_s": round(elapsed, 3),
                                       "options": options})
     writers.write_json(summary, out / "summary.json")
+    if args.report and summary["n_tasks"]:
+        from gnssrel.report.campaign_report import write_campaign_report  # deferred: matplotlib
+
+        write_campaign_report(out)
     if args.summary:
         writers.write_json(summary, args.summary)
     if args.json:

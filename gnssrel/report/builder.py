@@ -20,7 +20,7 @@ from gnssrel.report.html import render_html
 from gnssrel.report.palette import gnssrel_style
 from gnssrel.report.tables import SHOWN_IN_HTML, report_tables
 
-__all__ = ["write_report", "write_report_files"]
+__all__ = ["write_folder_atomically", "write_report", "write_report_files"]
 
 
 def write_report_files(content, folder: Path, figures=None) -> dict:
@@ -56,11 +56,20 @@ def check_report_folder(output) -> Path:
 
 def write_report(content, output, plots=None) -> Path:
     """Write the report folder ``output`` atomically (see module text); with ``plots``, copy the PNGs there."""
+    written = write_folder_atomically(output, lambda staging: write_report_files(content, staging))
+    if plots:
+        copy_plots(output, plots, written["figures"])
+    return Path(output)
+
+
+def write_folder_atomically(output, fill):
+    """Stage a folder beside ``output``, ``fill(staging)`` it, rename it into place; returns what
+    ``fill`` returned.  A failure removes the staged folder and leaves an earlier ``output`` as it was."""
     output = Path(output)
     parent = check_report_folder(output)
     staging = Path(tempfile.mkdtemp(prefix=f".{output.name}.", suffix=".part", dir=parent))
     try:
-        written = write_report_files(content, staging)
+        written = fill(staging)
         _readable(staging)
         if output.exists():
             old = Path(tempfile.mkdtemp(prefix=f".{output.name}.", suffix=".old", dir=parent))
@@ -72,9 +81,7 @@ def write_report(content, output, plots=None) -> Path:
     except BaseException:
         shutil.rmtree(staging, ignore_errors=True)
         raise
-    if plots:
-        copy_plots(output, plots, written["figures"])
-    return output
+    return written
 
 
 def _readable(folder: Path) -> None:
