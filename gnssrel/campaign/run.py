@@ -219,7 +219,7 @@ def campaign_table(summaries):
 
 
 def campaign_summary(summaries, n_skipped: int, extra: dict | None = None) -> dict:
-    """The campaign summary (the keys of issue 11), tasks sorted by station and date."""
+    """The campaign summary (the keys the README documents), tasks sorted by station and date."""
     tasks, network = [], []
     for s in sorted(summaries, key=lambda s: (s["station"], s["date"])):
         if s.get("kind") == "network-day":
@@ -236,6 +236,8 @@ def campaign_summary(summaries, n_skipped: int, extra: dict | None = None) -> di
                              for letter, f in (s.get("relativity_k") or {}).items()},
             "position": {"median_error_3d_m": position.get("median_error_3d_m"),
                          "median_error_3d_m_without_periodic": position.get("median_error_3d_m_without_periodic")},
+            "receiver_fixes_follow": (s.get("receiver_fixes") or {}).get("closest"),
+            "receiver_verdict": campaign_row(s)["receiver_verdict"],
             "skipped": bool(s.get("_skipped")),
             "content_hash": s.get("content_hash"),
         })

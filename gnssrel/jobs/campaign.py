@@ -14,7 +14,7 @@ from pathlib import Path
 from gnssrel.errors import GnssrelInputError, NoDataError
 from gnssrel.io import writers
 from gnssrel.jobs import common
-from gnssrel.text import fmt, fmt_sigma, in_system_order, text_table
+from gnssrel.text import fmt, fmt_k, in_system_order, text_table
 
 HELP = "audit many station-days (receivers x days) at once, on local worker processes or a Dask cluster"
 EXIT_SOME_FAILED = 3
@@ -124,16 +124,17 @@ def _print_text(summary: dict) -> None:
     for t in summary["tasks"]:
         fits, pos = t["relativity_k"], t["position"]
         rows.append((t["station"], t["date"], t["status"] + (" (earlier run)" if t.get("skipped") else ""),
-                     *(f"{fmt(fits[s]['k'], '.3f')} ± {fmt_sigma(fits[s]['sigma'])}" if s in fits else "-"
+                     *(fmt_k(fits[s]["k"], fits[s]["sigma"]) if fits.get(s, {}).get("k") is not None else "-"
                        for s in letters),
-                     fmt(pos["median_error_3d_m"]), fmt(pos["median_error_3d_m_without_periodic"])))
+                     fmt(pos["median_error_3d_m"]), fmt(pos["median_error_3d_m_without_periodic"]),
+                     t.get("receiver_fixes_follow") or "-"))
     print(text_table(("station", "date", "status", *(f"k {s}" for s in letters),
-                      "3-D error (m)", "without periodic (m)"), rows))
+                      "3-D error (m)", "without periodic (m)", "fixes follow"), rows))
     for t in summary["tasks"]:
         if t["status"] != "ok":
             print(f"  {t['station']} {t['date']} failed: {t['reason']}")
     for day in summary["network"]:
-        clocks = "; ".join(f"{s} k {fmt(c['k'], '.3f')} ± {fmt_sigma(c['sigma'])} ({c['convention']})"
+        clocks = "; ".join(f"{s} k {fmt_k(c['k'], c['sigma'])} ({c['convention']})"
                            for s, c in day["clock_k"].items())
         print(f"network {day['date']}: relativity terms {day['status']}"
               + (f" ({day['reason']})" if day["reason"] else "")
