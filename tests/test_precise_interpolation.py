@@ -8,10 +8,10 @@ import numpy as np
 import pytest
 from conftest import ONE_MILLIMETRE, ONE_NANOSECOND, ONE_PICOSECOND
 
-from gnssrel.clocks.interpolation import interpolate_clock
 from gnssrel.constants import GM_EARTH_IERS_M3_S2, GPS_NOMINAL_SEMI_MAJOR_AXIS_M, OMEGA_EARTH_IERS_RAD_S
 from gnssrel.io.rinex_clock import read_rinex_clock
 from gnssrel.io.sp3 import read_sp3
+from gnssrel.orbits.interpolation import interpolate_clock
 from gnssrel.orbits.precise import STATUS_CODES, STATUS_GAP, STATUS_OUTSIDE, lagrange_weights, precise_states
 from gnssrel.timescales import seconds_between
 
