@@ -21,7 +21,10 @@ show them):
 ``observations``        pseudoranges (one per satellite, signal and epoch)
 ``epochs``              observation epochs
 ``fixes``               receiver position fixes (NMEA GGA, CSV)
-``receiver_clock_rows`` rows of a receiver clock table
+``receiver_clock_rows`` rows of a receiver clock table (its satellite clock corrections)
+``receiver_clock_series_rows`` rows of a receiver's own clock bias/drift series (system "-")
+``antenna_blocks``      antenna blocks of an ANTEX file (system: the satellite's letter, "-" for
+                        receiver antennas)
 
 Outcomes are short phrases (``"used"``, ``"damaged"``, ``"not read: SBAS"``,
 ``"no satellite state"`` ...); ``"read"`` is the total and ``"used"`` what went
@@ -44,7 +47,7 @@ MAX_WARNINGS = 200
 """Warnings kept in full; beyond this only their number grows (``warnings_dropped``)."""
 
 ITEMS = ("navigation_records", "sp3_records", "clock_records", "epochs", "observations",
-         "fixes", "receiver_clock_rows")
+         "fixes", "receiver_clock_rows", "receiver_clock_series_rows", "antenna_blocks")
 
 
 @dataclass

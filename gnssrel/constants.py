@@ -110,11 +110,36 @@ GLONASS = SystemConstants(
     source="GLONASS ICD 2008 ed. 5.1, Table 3.2 and A.3.1.2 (PZ-90.02)",
 )
 
-SYSTEMS: dict[str, SystemConstants] = {s.letter: s for s in (GPS, GALILEO, BEIDOU, QZSS, GLONASS)}
+NAVIC = SystemConstants(
+    letter="I", name="NavIC", time_scale="IRNST",
+    gm_m3_s2=3.986005e14,            # IRNSS SPS ICD 1.1, user algorithm: the GPS value (from memory)
+    omega_earth_rad_s=7.2921151467e-5,  # IRNSS SPS ICD 1.1 (from memory), as GPS
+    ellipsoid_a_m=6_378_137.0, ellipsoid_inverse_flattening=298.257223563,  # WGS-84
+    j2=1.08262982131e-3,             # WGS-84, as GPS (from memory)
+    source="IRNSS SPS ICD 1.1 (GPS values of mu, Omega_e and so F; from memory); WGS-84",
+)
+SBAS = SystemConstants(
+    letter="S", name="SBAS", time_scale="GPST",
+    gm_m3_s2=3.986005e14,            # WGS-84 as used by GPS (RTCA DO-229 works in WGS-84; from memory)
+    omega_earth_rad_s=7.2921151467e-5,  # WGS-84 / IS-GPS-200 value (from memory)
+    ellipsoid_a_m=6_378_137.0, ellipsoid_inverse_flattening=298.257223563,  # WGS-84
+    j2=1.08262982131e-3,
+    source="RTCA DO-229 (WGS-84 frame, GPST; from memory); WGS-84 (NGA TR8350.2)",
+)
+
+SYSTEMS: dict[str, SystemConstants] = {s.letter: s for s in (GPS, GALILEO, BEIDOU, QZSS, GLONASS, NAVIC, SBAS)}
 """Constants by RINEX system letter."""
 
 SYSTEM_ORDER = "GECJR"
-"""The systems gnssrel handles, in the order tables and plots show them."""
+"""The systems gnssrel handles by default, in the order tables and plots show them."""
+
+EXTRA_SYSTEM_ORDER = "IS"
+"""Systems handled when asked for (``--systems I``, ``systems="IS"``) but not by default:
+NavIC and SBAS (issue 14).  Kept out of :data:`SYSTEM_ORDER` so that the default runs, the
+tables and the figures of the other systems stay as they were."""
+
+ALL_SYSTEM_ORDER = SYSTEM_ORDER + EXTRA_SYSTEM_ORDER
+"""Every system letter gnssrel handles, in display order."""
 
 # BeiDou satellites in geostationary orbit (PRN 1-5 and 59-63), BDS-SIS-ICD-B1I 5.2.4.12
 # note; common practice identifies them by PRN.

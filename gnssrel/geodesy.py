@@ -83,3 +83,16 @@ def azimuth_elevation(receiver_ecef_m, satellite_ecef_m) -> tuple[np.ndarray, np
     az = np.mod(np.arctan2(e, n), 2.0 * np.pi)
     el = np.arctan2(u, np.hypot(e, n))
     return az, el
+
+
+def geodetic_deg_to_ecef(lat_deg, lon_deg, height_m) -> np.ndarray:
+    """ECEF position ``(..., 3)`` in metres of WGS-84 latitude, longitude (degrees) and ellipsoidal height (m)."""
+    return geodetic_to_ecef(np.radians(lat_deg), np.radians(lon_deg), height_m)
+
+
+def enu_errors(positions_ecef_m, reference_ecef_m) -> np.ndarray:
+    """East, north, up ``(..., 3)`` in metres of ``positions - reference``, in the local frame of the
+    reference (its WGS-84 latitude and longitude); ``reference_ecef_m`` shape ``(3,)``."""
+    ref = np.asarray(reference_ecef_m, dtype=float)
+    lat, lon, _ = ecef_to_geodetic(ref)
+    return ecef_to_enu(np.asarray(positions_ecef_m, dtype=float) - ref, lat, lon)

@@ -34,14 +34,21 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from gnssrel.constants import GPS_FACTORY_FREQUENCY_OFFSET, SYSTEM_ORDER, SYSTEMS, SystemConstants
+from gnssrel.constants import (
+    ALL_SYSTEM_ORDER,
+    GPS_FACTORY_FREQUENCY_OFFSET,
+    SYSTEM_ORDER,
+    SYSTEMS,
+    SystemConstants,
+)
 from gnssrel.signals import CARRIER_HZ
 from gnssrel.timescales import SYSTEM_TIME_SCALE
 
-__all__ = ["SYSTEM_MODELS", "SYSTEM_ORDER", "SystemModel", "per_satellite", "system_model"]
+__all__ = ["ALL_SYSTEM_ORDER", "SYSTEM_MODELS", "SYSTEM_ORDER", "SystemModel", "per_satellite", "system_model"]
 
 ORBIT_KEPLERIAN = "keplerian"
 ORBIT_STATE_VECTOR = "state_vector"
+ORBIT_SBAS_QUADRATIC = "sbas_quadratic"
 
 POLYNOMIAL = ("clock_bias_s", "clock_drift_s_per_s", "clock_drift_rate_s_per_s2")
 """a_f0, a_f1, a_f2 columns of the Keplerian systems' clock polynomial."""
@@ -63,6 +70,7 @@ class SystemModel:
     precise_clock_signal: str = "unknown"  # what IGS-style precise clocks refer to
     nominal_rate: float | None = None     # published mean proper-time rate vs TT (clock set low by it)
     fdma: bool = False                    # a carrier per satellite (frequency channel)
+    nominal_rate_note: str = ""           # why nominal_rate is None, where it is
 
     @property
     def name(self) -> str:
@@ -111,7 +119,11 @@ _KEPLER = {"orbit_model": ORBIT_KEPLERIAN, "reference_column": "toe", "clock_col
 
 SYSTEM_MODELS: dict[str, SystemModel] = {m.letter: m for m in (
     SystemModel("G", SYSTEMS["G"], periodic_note=_GPS_RULE, nominal_rate=-GPS_FACTORY_FREQUENCY_OFFSET,
-                clock_signal={"LNAV": "L1 P(Y) / L2 P(Y) ionosphere-free combination"},
+                clock_signal={"LNAV": "L1 P(Y) / L2 P(Y) ionosphere-free combination",
+                              # IS-GPS-200 30.3.3.3.1.1 (CNAV) and IS-GPS-800 3.5.3 (CNV2): the same
+                              # reference; the ISCs move it to L1 C/A, L2C, L5, L1C (from memory)
+                              "CNAV": "L1 P(Y) / L2 P(Y) ionosphere-free combination",
+                              "CNV2": "L1 P(Y) / L2 P(Y) ionosphere-free combination"},
                 precise_clock_signal="L1 P(Y) / L2 P(Y) ionosphere-free (C1W/C2W), as the broadcast clock",
                 **_KEPLER),
     SystemModel("E", SYSTEMS["E"], periodic_note="Galileo OS SIS ICD 5.1.4, same form with Galileo mu "
@@ -121,10 +133,15 @@ SYSTEM_MODELS: dict[str, SystemModel] = {m.letter: m for m in (
                 precise_clock_signal="E1 / E5a ionosphere-free (C1C/C5Q)", **_KEPLER),
     SystemModel("C", SYSTEMS["C"], periodic_note="BDS-SIS-ICD 5.2.4.10, same form with CGCS2000 mu "
                                                  "(section number from memory)",
-                clock_signal={"D1": "B3I single frequency", "D2": "B3I single frequency"},
+                clock_signal={"D1": "B3I single frequency", "D2": "B3I single frequency",
+                              # BDS-SIS-ICD-B1C 1.0 / B2a 1.0: clock parameters refer to B3I, TGD_B1Cp,
+                              # TGD_B2ap and the ISCs move them (from memory)
+                              "CNV1": "B3I single frequency", "CNV2": "B3I single frequency"},
                 precise_clock_signal="B1I / B3I ionosphere-free (C2I/C6I)", **_KEPLER),
     SystemModel("J", SYSTEMS["J"], periodic_note="IS-QZSS-PNT, the GPS user algorithm (from memory)",
-                clock_signal={"LNAV": "L1 / L2 ionosphere-free combination (GPS convention)"},
+                clock_signal={"LNAV": "L1 / L2 ionosphere-free combination (GPS convention)",
+                              "CNAV": "L1 / L2 ionosphere-free combination (GPS convention)",
+                              "CNV2": "L1 / L2 ionosphere-free combination (GPS convention)"},
                 precise_clock_signal="L1 C/A / L2C ionosphere-free (C1C/C2L)", **_KEPLER),
     SystemModel("R", SYSTEMS["R"], orbit_model=ORBIT_STATE_VECTOR, reference_column="toc",
                 # GLONASS ICD 2008 3.3.3: -tau_n + gamma_n (t - t_b); RINEX stores -tau_n and +gamma_n.
@@ -134,6 +151,22 @@ SYSTEM_MODELS: dict[str, SystemModel] = {m.letter: m for m in (
                               "tau_n, gamma_n (ESA Navipedia, published); reported, not applied",
                 clock_signal={"FDMA": "L1 (tau_n; the L2-L1 difference Delta tau_n is not in RINEX 3 nav)"},
                 precise_clock_signal="L1 P / L2 P ionosphere-free (C1P/C2P)", fdma=True),
+    SystemModel("I", SYSTEMS["I"], periodic_note="IRNSS SPS ICD 1.1, the GPS form F e sqrt(A) sin E "
+                                                 "added by the user (from memory)",
+                clock_signal={"LNAV": "L5 / S ionosphere-free combination (TGD for L5 single-frequency "
+                                      "users; IRNSS SPS ICD 1.1, from memory)"},
+                nominal_rate_note="none published in the IRNSS SPS ICD 1.1 as far as we know (from memory)",
+                **_KEPLER),
+    SystemModel("S", SYSTEMS["S"], orbit_model=ORBIT_SBAS_QUADRATIC, reference_column="toc",
+                clock_columns=("clock_bias_s", "clock_drift_s_per_s", None), clock_week_fold=False,
+                user_applies_periodic=False,
+                periodic_note="undetermined: whether the SBAS GEO clock a_Gf0, a_Gf1 holds the periodic "
+                              "term is not stated in any text we could check (RTCA DO-229 A.4.4.11 "
+                              "gives the clock as a_Gf0 + a_Gf1 dt, from memory); below 1 ns for a "
+                              "GEO; reported, not applied",
+                clock_signal={"SBAS": "L1 C/A (SBAS GEO clock a_Gf0, a_Gf1; from memory)"},
+                nominal_rate_note="SBAS GEO clocks are steered to GPST by the ground; no rate offset "
+                                  "is published"),
 )}
 """The systems gnssrel handles, by RINEX letter (module text).  Precise-clock signals: common
 practice of the IGS and its multi-GNSS analysis centres (from memory; a product's header may
@@ -145,7 +178,7 @@ def system_model(system: str) -> SystemModel:
     try:
         return SYSTEM_MODELS[str(system)[0]]
     except (KeyError, IndexError):
-        raise KeyError(f"unknown GNSS system {system!r}; gnssrel handles {SYSTEM_ORDER}") from None
+        raise KeyError(f"unknown GNSS system {system!r}; gnssrel handles {ALL_SYSTEM_ORDER}") from None
 
 
 def per_satellite(svs, attribute: str) -> np.ndarray:

@@ -37,3 +37,17 @@ def refdata_file(relative: str) -> Path:
 @pytest.fixture
 def refdata():
     return refdata_file
+
+
+@pytest.fixture(scope="session")
+def demo_content():
+    """The report content of the invented demo scenario (``gnssrel demo`` runs the same analysis),
+    computed once for the session: the report tests only read it."""
+    from gnssrel.jobs.demo import scenario_files
+    from gnssrel.pipeline.analysis import analyse
+
+    if not (SAMPLE_LOGS / "scenario.json").exists():
+        pytest.skip("sample_logs/ is not in this checkout")
+    files = scenario_files(SAMPLE_LOGS)
+    return analyse(files["nav"], files["precise"], files["obs"], files["fixes"], files["clocks"],
+                   title="test report", progress=lambda text: None, clock_fallback=True)

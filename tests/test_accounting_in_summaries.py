@@ -45,10 +45,11 @@ def _balanced(summary) -> Ledger:
 
 def test_orbits_summary_counts_sp3_records_outside_the_window(capsys):
     ledger = _balanced(_summary(capsys, "orbits", NAV, "--precise", SP3))
-    # 25 SP3 epochs (08:30 to 14:30) of 24 GPS satellites; the comparison window is the
-    # navigation records' span 08:00-14:00, so the two epochs after 14:00 are left aside.
+    # 25 SP3 epochs (08:30 to 14:30) of 24 GPS satellites; the comparison window is the period the
+    # nav file's name declares (_20251621000_03H_: 10:00 to 13:00, end excluded; gnssrel.pipeline.window),
+    # so 12 epochs (10:00 to 12:45) are compared and the 13 others left aside.
     assert ledger.count("sp3_records", "G") == 25 * 24
-    assert ledger.dropped("sp3_records", "G") == {"outside the time window": 2 * 24}
+    assert ledger.dropped("sp3_records", "G") == {"outside the time window": 13 * 24}
     assert ledger.count("navigation_records", "G") == 96
 
 
@@ -76,8 +77,8 @@ def test_relativity_and_clocks_summaries_are_balanced(capsys):
 
 def test_audit_counts_every_pseudorange_by_reason(capsys):
     summary = _summary(capsys, "audit", OBS, NAV, "--elevation-mask", "30", "--step", "60",
-                       "--receiver-fixes", str(LOGS / "KVRP_fixes.nmea"))
-    ledger = _balanced(summary)
+                       "--receiver-fixes", str(LOGS / "KVRP_fixes.nmea"), "--max-pdop", "0")
+    ledger = _balanced(summary)             # (no PDOP gate: a 30 degree mask leaves PDOP above 10 at times)
     g_read = ledger.count("observations", "G")
     dropped = ledger.dropped("observations", "G")
     # --step 60 keeps every other epoch of the 30 s log: half the pseudoranges (odd count aside).
@@ -98,10 +99,12 @@ def test_terminal_block_shows_only_lines_with_drops_and_a_total(capsys):
     assert main(["orbits", NAV, "--precise", SP3]) == 0
     out = capsys.readouterr().out
     block = out[out.index("accounting: "):].splitlines()
-    assert block[0] == "accounting: 1524 records and observations read, 1422 used, 102 dropped with a reason"
-    assert block[1:] == ["  sp3 records G: 552 used of 600 read; dropped: 48 outside the time window",
-                         "  sp3 records E: 414 used of 450 read; dropped: 36 outside the time window",
-                         "  sp3 records C: 207 used of 225 read; dropped: 18 outside the time window"]
+    # 12 SP3 epochs in the nav file's declared 10:00-13:00 (24 G, 18 E, 9 C satellites) + 138 nav records
+    assert block[0] == "accounting: 1524 records and observations read, 750 used, 774 dropped with a reason"
+    assert block[-3:] == ["  sp3 records G: 288 used of 600 read; dropped: 312 outside the time window",
+                          "  sp3 records E: 216 used of 450 read; dropped: 234 outside the time window",
+                          "  sp3 records C: 108 used of 225 read; dropped: 117 outside the time window"]
+    assert all(line.startswith("  navigation records ") for line in block[1:-3])
 
 
 def test_verbose_lists_the_warnings():

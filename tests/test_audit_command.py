@@ -74,7 +74,8 @@ def test_demo_scenario_verdicts(capsys, receiver, hypothesis, clock_status, prod
     extra = ["--precise", str(SAMPLE_LOGS / DEMO_SP3), str(SAMPLE_LOGS / DEMO_CLK)] if products == "precise" else []
     s = _demo_audit(receiver, capsys, "--step", "60", *extra)
     assert s["clock_source"] == products
-    # The raw logs carry the true clocks (README: "k near 1 in both logs"); GPS has G15 (e = 0.047).
+    # The raw logs carry the true clocks (README: "k near 1 in both logs"); GPS e 0.002-0.02 (G15: 0.02,
+    # a 13.7 m periodic range term, c F e sqrt(A), IS-GPS-200 20.3.3.3.3.1).
     g = s["relativity_k"]["G"]
     assert g["k"] == pytest.approx(1.0, abs=max(3 * g["sigma"], 0.03)) and g["status"] == "consistent"
     assert g["rms_m"]["applied"] < 0.7 * g["rms_m"]["omitted"]
@@ -83,7 +84,9 @@ def test_demo_scenario_verdicts(capsys, receiver, hypothesis, clock_status, prod
     assert f"closest to '{hypothesis}'" in s["receiver_verdict"] and clock_status in s["receiver_verdict"]
     # scenario.json sites: the header position is the true one; its median fix error about 0.8 m
     assert s["position"]["median_error_3d_m"] < 2.0
-    assert s["position"]["median_error_3d_m_without_periodic"] > 10.0     # README: SLMB's fixes ~21 m off
+    # Omitting the term moves the fix by the weighted least-squares projection of the per-satellite terms
+    # (derived from the scenario's geometry at 10:00, 11:30, 13:00: 17.6, 9.4, 12.5 m); README: SLMB's fixes ~15 m off
+    assert s["position"]["median_error_3d_m_without_periodic"] > 8.0
 
 
 @pytest.mark.refdata

@@ -86,9 +86,11 @@ def test_audit_without_pseudoranges_names_the_file(tmp_path, capsys):
 def test_relativity_too_short_default_window_says_which_window_and_file(tmp_path, capsys):
     nav = tmp_path / "ONE0_MN.rnx"                    # the header and a single GPS record
     nav.write_text("\n".join(Path(NAV).read_text().splitlines()[:18]) + "\n")
-    code, _, err = _run(capsys, "relativity", nav)
+    # the default window is the day holding the record (the name declares no period); 12 h steps: 2 epochs
+    code, _, err = _run(capsys, "relativity", nav, "--step", "43200")
     assert code == 2
-    _one_line_error(err, "only 1 epoch", "default window 2025-06-11 08:00:00", "ONE0_MN.rnx")
+    _one_line_error(err, "only 2 epochs", "default window 2025-06-11 00:00:00 to 2025-06-12 00:00:00 GPST",
+                    "ONE0_MN.rnx")
 
 
 def test_orbits_window_after_the_records_is_no_overlap(capsys):

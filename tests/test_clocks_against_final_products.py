@@ -219,6 +219,9 @@ def test_group_delays_move_the_clock_to_one_signal():
     assert "E1 / E5a" in GROUP_DELAYS[("E", "FNAV")]["clock_refers_to"]
     assert "B3I" in GROUP_DELAYS[("C", "D1")]["clock_refers_to"]
     assert GROUP_DELAYS[("C", "D1")]["single_frequency"]["B1I"][0] == "tgd1_b1_b3_s"
-    assert POLYNOMIAL_HOLDS_PERIODIC == {"G": False, "E": False, "C": False, "J": False, "R": True}
+    # NavIC adds the term as GPS does (IRNSS SPS ICD 1.1, from memory); SBAS: undetermined, so
+    # gnssrel does not add it (gnssrel/systems.py gives the reason).
+    assert POLYNOMIAL_HOLDS_PERIODIC == {"G": False, "E": False, "C": False, "J": False, "R": True,
+                                         "I": False, "S": True}
     with pytest.raises(KeyError, match="known"):
         single_frequency_clock_s(clock, table, [0], "G", "LNAV", "L5")

@@ -37,9 +37,12 @@ def test_demo_summary_and_report_carry_a_balanced_accounting(demo_run):
     assert ledger.unbalanced() == []
     assert set(ledger.counts) >= {"navigation_records", "sp3_records", "clock_records", "observations",
                                   "epochs", "fixes", "receiver_clock_rows"}
-    # the demo logs: 360 epochs at 30 s each (sample_logs/README.md); every pseudorange used
+    # the demo logs: 360 epochs at 30 s each (sample_logs/README.md); every pseudorange used but the
+    # few the residual test of the fixes excludes on clean data (false alarms: 1e-3 per epoch)
     assert ledger.count("epochs") == 2 * 360
-    assert ledger.count("observations", outcome="used") == ledger.count("observations") > 0
+    excluded = ledger.dropped("observations").get("excluded by the residual test", 0)
+    assert ledger.count("observations", outcome="used") + excluded == ledger.count("observations") > 0
+    assert excluded <= 10
     html = (out / "report.html").read_text(encoding="utf-8")
     assert "<h2 id='accounting'>Accounting</h2>" in html and "superseded (never the nearest record)" in html
     assert (out / "accounting.csv").is_file()
@@ -72,7 +75,12 @@ def test_demo_writes_the_report_and_the_plots(demo_run):
     out, plots, summary, _ = demo_run
     assert (out / "report.html").stat().st_size > 500_000
     pngs = sorted(p.name for p in plots.glob("*.png"))
-    assert pngs == sorted(p.name for p in out.glob("*.png")) and len(pngs) == 7
+    # the figures every demo report has: six of the scenario, two per receiver, the accounting
+    expected = {"periodic_term", "rate_decomposition", "proper_time", "clock_convention", "orbit_differences",
+                "signal_path", "coverage"} | {f"{kind}_{r}" for kind in ("audit", "positions_enu")
+                                              for r in ("KVRP", "SLMB")}
+    assert pngs == sorted(p.name for p in out.glob("*.png"))
+    assert {p.removesuffix(".png") for p in pngs} == expected
     assert summary["time_scale"] == "GPST" and summary["clocks"]["by_system"]["G"]["convention"] == \
         "excludes-periodic"
 

@@ -93,3 +93,80 @@ def test_glonass_positions_per_satellite(inputs):
     assert len(glo) >= 20
     # broadcast GLONASS ~3 m (NAVI, published); measured worst satellite 5.59 m (regression, +16 %)
     assert glo["rms_3d_m"].max() < 6.5
+
+
+def _orbits_command(tmp_path, *extra):
+    import json
+
+    from gnssrel.cli import main
+    summary = tmp_path / "summary.json"
+    code = main(["orbits", str(refdata_file(DAY + "MOJN00DNK_R_20201770000_01D_MN.rnx.gz")), "--precise",
+                 str(refdata_file(DAY + "GRG0MGXFIN_20201760000_01D_15M_ORB.SP3.gz")),
+                 str(refdata_file(DAY + "GRG0MGXFIN_20201770000_01D_15M_ORB.SP3.gz")),
+                 "--summary", str(summary), "--json", *extra])
+    assert code == 0
+    return json.loads(summary.read_text())
+
+
+@pytest.mark.refdata
+def test_sisre_per_system(tmp_path, capsys):
+    """SISRE of MOJN broadcast vs GRG final orbits and SP3 clocks, 2020-06-25, no antenna offsets.
+
+    Measured here (regression, bounds ~15 %): GPS 1.02 m (orbit 1.05, clock 0.65), Galileo 0.93 m
+    (0.81, 0.38), GLONASS 3.06 m (2.12, 2.12); with each satellite's mean radial (the antenna
+    offset, mostly) removed: GPS 0.68, Galileo 0.38, GLONASS 2.19 m.  Context (Montenbruck et al.
+    2015, 2013-14, published): GPS 0.7, Galileo 1.6, GLONASS 1.9 m.
+    """
+    summary = _orbits_command(tmp_path)
+    sisre = summary["sisre"]
+    measured = {"G": (1.02, 1.05, 0.65, 0.68), "E": (0.93, 0.81, 0.38, 0.38), "R": (3.06, 2.12, 2.12, 2.19)}
+    for letter, (total, orbit, clock, unbiased) in measured.items():
+        entry = sisre[letter]
+        assert entry["total_m"] == pytest.approx(total, rel=0.15), letter
+        assert entry["orbit_m"] == pytest.approx(orbit, rel=0.15), letter
+        assert entry["clock_m"] == pytest.approx(clock, rel=0.15), letter
+        assert entry["total_mean_radial_removed_m"] == pytest.approx(unbiased, rel=0.15), letter
+    assert sisre["G"]["published_2013_14_m"] == 0.7
+    assert summary["antenna_offsets"]["applied"] is False
+    assert "antenna offset" in summary["antenna_offsets"]["note"]
+    # the radial mean stays beside the RMS: IIF satellites about -1.0 m, IIR about 0 (issue 14)
+    assert summary["satellites"]["G01"]["mean_radial_m"] == pytest.approx(-1.05, abs=0.15)
+    assert abs(summary["satellites"]["G05"]["mean_radial_m"]) < 0.2
+
+
+@pytest.mark.refdata
+def test_antex_offsets_move_the_radial_mean(tmp_path):
+    """A built ANTEX file for the day's GPS satellites (invented offsets: x 0.394 m, z 1.0 m on L1 and
+    L2 alike) moves each GPS satellite's mean radial difference by exactly +1.0 m (z is radial,
+    x and y are not, ANTEX 1.4 body frame), and leaves Galileo and GLONASS alone."""
+    from test_antex import build_antex, satellite_block
+    blocks = [satellite_block(f"G{n:02d}", f"G{100 + n:03d}", {"G01": (394.0, 0.0, 1000.0),
+                                                               "G02": (394.0, 0.0, 1000.0)})
+              for n in range(1, 33)]
+    atx = build_antex(tmp_path / "day.atx", blocks)
+    plain = _orbits_command(tmp_path)
+    moved = _orbits_command(tmp_path, "--antex", str(atx))
+    assert moved["antenna_offsets"]["applied"] is True
+    for sv, entry in plain["satellites"].items():
+        if entry["n_epochs"] == 0:
+            continue
+        expected = 1.0 if sv[0] == "G" else 0.0
+        assert moved["satellites"][sv]["mean_radial_m"] - entry["mean_radial_m"] == pytest.approx(expected, abs=1e-6)
+    assert moved["accounting"]["antenna_blocks"]["G"] == {"read": 32, "used": 32}
+
+
+@pytest.mark.refdata
+def test_clocks_command_gives_the_same_sisre(tmp_path, capsys):
+    """`gnssrel clocks` with the SP3 files (orbits and clocks) reports the SISRE of `orbits --precise`."""
+    import json
+
+    from gnssrel.cli import main
+    summary = tmp_path / "clocks.json"
+    assert main(["clocks", str(refdata_file(DAY + "MOJN00DNK_R_20201770000_01D_MN.rnx.gz")), "--precise",
+                 str(refdata_file(DAY + "GRG0MGXFIN_20201760000_01D_15M_ORB.SP3.gz")),
+                 str(refdata_file(DAY + "GRG0MGXFIN_20201770000_01D_15M_ORB.SP3.gz")),
+                 "--summary", str(summary)]) == 0
+    assert "signal-in-space range error" in capsys.readouterr().out
+    sisre = json.loads(summary.read_text())["sisre"]
+    assert sisre["G"]["total_m"] == pytest.approx(1.02, rel=0.15)       # as test_sisre_per_system
+    assert sisre["R"]["clock_m"] == pytest.approx(2.12, rel=0.15)

@@ -49,7 +49,7 @@ def test_every_stage_is_exported_listed_and_documented():
         doc = getattr(gnssrel, name).__doc__
         assert doc and len(doc) > 40, name
     with pytest.raises(AttributeError):
-        gnssrel.no_such_stage
+        _ = gnssrel.no_such_stage
 
 
 def test_import_gnssrel_loads_no_heavy_library():
@@ -78,9 +78,10 @@ def test_snippet_finds_the_periodic_term_in_the_raw_pseudoranges(snippet):
     # k = 1: the satellite clocks carry the periodic term (IS-GPS-200 20.3.3.3.3.1); the scenario's truth has it
     assert abs(gps["k"] - 1.0) < 3 * gps["sigma"] and gps["sigma"] < 0.05
     position = audit.summary["position"]
-    # regression (this version): 1.49 m with the term applied, 19.4 m without it
+    # applied: metre level; omitted: the least-squares projection of the scenario's per-satellite terms (up to
+    # c F e sqrt(A) = 13.7 m for G15, e = 0.02) moves the fix by 9.4-17.6 m (derived at 10:00, 11:30, 13:00)
     assert position["median_error_3d_m"] < 3.0
-    assert position["median_error_3d_m_without_periodic"] > 15.0
+    assert position["median_error_3d_m_without_periodic"] > 8.0
 
 
 def test_relativity_terms_takes_the_broadcast_elements_for_precise_states(snippet):

@@ -144,3 +144,49 @@ def test_per_satellite_offsets_are_part_of_the_model():
     shifted = y + np.array([float(n[1:]) for n in s]) * 5.0
     a, b = fit_periodic_factor(y, x, e, s, jackknife=False), fit_periodic_factor(shifted, x, e, s, jackknife=False)
     assert a["k"] == pytest.approx(b["k"], abs=1e-9)
+
+
+def test_an_ionosphere_model_error_enters_the_sigma_as_the_k_it_would_fit():
+    # k is linear in y: a model error e shifts k by the k fitted to e alone.  An error shaped like
+    # the periodic term itself (the worst case) of amplitude 0.2 c dt_r moves k by exactly 0.2.
+    y, x, e, s = _synthetic(1.0)
+    fit = fit_periodic_factor(y, x, e, s, model_error_m=0.2 * x)
+    assert fit["sigma_model"] == pytest.approx(0.2, rel=1e-6)
+    assert fit["sigma"] == pytest.approx(np.hypot(fit["sigma_jackknife"], 0.2), rel=1e-12)
+    # an error common to an epoch or constant per satellite is absorbed by b(epoch) and o(sv)
+    common = np.random.default_rng(5).normal(0, 3.0, int(e.max()) + 1)[e] + 2.0 * (s == "G03")
+    assert fit_periodic_factor(y, x, e, s, model_error_m=common)["sigma_model"] < 1e-9
+    assert fit_periodic_factor(y, x, e, s)["sigma_model"] == 0.0
+
+
+def _table(system, n_sat=6, n_epoch=30, code="C1C", iono=1.0, clock=1e-4, elevation=40.0):
+    import pandas as pd
+    rng = np.random.default_rng(2)
+    t = np.datetime64("2024-04-01T08:00", "ns") + (np.arange(n_epoch) * 30 * 10**9).astype("timedelta64[ns]")
+    rows = [(t[i], f"{system}{j + 1:02d}") for i in range(n_epoch) for j in range(n_sat)]
+    n = len(rows)
+    periodic = 1e-8 * np.sin(np.arange(n) / 50.0)
+    return pd.DataFrame({"time": [r[0] for r in rows], "sv": [r[1] for r in rows], "system": system, "code": code,
+                         "pseudorange_m": 2.2e7 + rng.normal(0, 0.5, n) - C * periodic,
+                         "geometric_range_m": np.full(n, 2.2e7), "shapiro_m": 0.0, "troposphere_m": 0.0,
+                         "ionosphere_m": np.full(n, iono), "group_delay_m": 0.0,
+                         "satellite_clock_s": np.full(n, clock), "periodic_s": periodic,
+                         "periodic_in_clock": False, "elevation_deg": np.full(n, elevation)})
+
+
+def test_single_frequency_codes_with_a_model_are_fitted_and_the_others_say_why():
+    import pandas as pd
+
+    from gnssrel.audit.relativity_fit import relativity_k, why_no_k
+    table = pd.concat([_table("G", iono=2.0), _table("C", code="C2I", iono=np.nan),
+                       _table("R", clock=np.nan), _table("E", code="C1C+C5Q", iono=0.0, elevation=5.0),
+                       _table("J", n_sat=1, n_epoch=10)], ignore_index=True)
+    fits = relativity_k(table)
+    assert set(fits) == {"G"}                                  # single frequency, Klobuchar-corrected
+    assert fits["G"]["frequencies"] == "single" and fits["G"]["sigma_model"] >= 0.0
+    why = why_no_k(table, fits)
+    assert set(why) == {"C", "R", "E", "J"}
+    assert "no broadcast ionosphere coefficients" in why["C"] and "C2I" in why["C"]
+    assert why["R"].startswith("no satellite orbit and clock")
+    assert why["E"] == "no observation above the 10 deg elevation mask"
+    assert why["J"].startswith("10 usable observations") and "20 needed" in why["J"]

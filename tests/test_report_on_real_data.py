@@ -15,7 +15,9 @@ import pytest
 from conftest import refdata_file
 
 from gnssrel.pipeline.analysis import analyse, default_window
-from gnssrel.report.builder import write_report
+from gnssrel.report.builder import write_folder_atomically, write_report_files
+from gnssrel.report.figures import build_figures
+from gnssrel.report.titles import report_title
 
 # IS-GPS-200 3.3.1.1: the satellite clock's 10.23 MHz is lowered to 10.22999999543 MHz,
 # i.e. a fractional rate offset of 4.4647e-10 (published).
@@ -35,8 +37,12 @@ def mojn_report(tmp_path_factory):
     nav = refdata_file("2020-177/MOJN00DNK_R_20201770000_01D_MN.rnx.gz")
     precise = [refdata_file(p) for p in PRODUCTS_2020]
     began = time.monotonic()
-    content = analyse([nav], precise, title="MOJN 2020-177", progress=lambda t: None, start=T0, end=T1)
-    folder = write_report(content, tmp_path_factory.mktemp("mojn") / "report")
+    content = analyse([nav], precise, progress=lambda t: None, start=T0, end=T1)
+    content.title = content.summary["title"] = report_title(content)      # as `gnssrel report` without --title
+    figures = build_figures(content)
+    folder = tmp_path_factory.mktemp("mojn") / "report"
+    write_folder_atomically(folder, lambda staging: write_report_files(content, staging, figures))
+    content.figures = figures
     return content, folder, time.monotonic() - began
 
 
@@ -105,14 +111,46 @@ def test_default_window_is_the_overlap_with_the_precise_day():
     assert end == np.datetime64("2020-06-25T23:45", "ns")             # the last SP3 epoch of the day
 
 
+# Issue 12 acceptance on real data: the figure list, captions and units, the findings box holds every k.
+# LEAD: extend these sets when figures are added (they follow gnssrel/report/figures.py).
+MOJN_FIGURES = {"periodic_term", "rate_decomposition", "proper_time", "clock_convention", "orbit_differences",
+                "signal_path", "coverage"}
+NYA1_FIGURES = {"periodic_term", "rate_decomposition", "proper_time", "signal_path", "audit_NYA1",
+                "positions_enu_NYA1", "coverage"}
+
+
+@pytest.mark.refdata
+def test_report_acceptance_on_mojn_with_precise_products(mojn_report):
+    from test_report import assert_axes_have_units, assert_figures_in_page, assert_findings_hold_every_k
+
+    content, folder, _ = mojn_report
+    page = (folder / "report.html").read_text(encoding="utf-8")
+    summary = json.loads((folder / "summary.json").read_text(encoding="utf-8"))
+    assert summary["title"] == "MOJN 2020-06-25 (day 177)" and "<h1>MOJN 2020-06-25 (day 177)</h1>" in page
+    assert_figures_in_page(page, MOJN_FIGURES)
+    assert_axes_have_units(content.figures)
+    assert_findings_hold_every_k(page, summary)
+    assert "/work/" not in page.split("<footer>")[1] and "GRG0MGXFIN_20201770000_01D_30S_CLK.CLK.gz" in page
+
+
 @pytest.mark.refdata
 def test_audit_part_works_on_a_real_log_without_receiver_files(tmp_path):
+    from test_report import (
+        assert_axes_have_units,
+        assert_figures_in_page,
+        assert_findings_hold_every_k,
+        findings_items,
+    )
+
     obs = refdata_file("2024-124/NYA100NOR_S_20241240000_01D_30S_MO.crx.gz")
     nav = [refdata_file(f"2024-124/NYA100NOR_S_20241240000_01D_{k}N.rnx.gz") for k in "GEC"]
     start, end = np.datetime64("2024-05-03T06:00", "ns"), np.datetime64("2024-05-03T07:00", "ns")
     began = time.monotonic()
     content = analyse(nav, obs_paths=[obs], progress=lambda t: None, start=start, end=end)
-    folder = write_report(content, tmp_path / "report")
+    content.title = content.summary["title"] = report_title(content)
+    figures = build_figures(content)
+    folder = tmp_path / "report"
+    write_folder_atomically(folder, lambda staging: write_report_files(content, staging, figures))
     print(f"report with --obs, 1 h of NYA1: {time.monotonic() - began:.1f} s")
     (r,) = content.receivers
     assert r.name.startswith("NYA1")
@@ -120,3 +158,15 @@ def test_audit_part_works_on_a_real_log_without_receiver_files(tmp_path):
     times = content.relativity["time"].values
     assert times[0] == start and times[-1] == end and times.size == 121
     assert (folder / f"audit_{r.name}.png").stat().st_size > 10_000
+    page = (folder / "report.html").read_text(encoding="utf-8")
+    summary = json.loads((folder / "summary.json").read_text(encoding="utf-8"))
+    assert content.title == "NYA1 2024-05-03 (day 124)"
+    assert_figures_in_page(page, NYA1_FIGURES)
+    assert_axes_have_units(figures)
+    # before: the box said only "not judged ... no fixes or clock table" although k had been fitted
+    assert_findings_hold_every_k(page, summary)
+    items = findings_items(page)
+    assert items[0][0] == "result" and items[0][1].startswith("NYA1 log: factor k")
+    assert any(cls == "not-judged" and "no receiver fixes" in text for cls, text in items)
+    receivers = pd.read_csv(folder / "receivers.csv")
+    assert receivers.loc[0, "firmware"].startswith("not judged") and "fault" not in receivers.columns

@@ -275,28 +275,42 @@ def test_garbled_optional_header_line_is_skipped(tmp_path):
 
 # ------------------------------------------------------------------ accounting of what is not read
 def test_sbas_and_navic_records_are_counted(tmp_path):
-    navic = RECORD.replace("G02", "I02")
+    # Since issue 14 both are tabulated (RINEX 3.04 SBAS and IRNSS records).
+    navic = RECORD.replace("G02", "I02").replace("5.153783548355E+03", "6.493359437943E+03")  # geosynchronous
     _, nav = _read(tmp_path, HEADER3 + RECORD + SBAS + navic)
     acc = nav.accounting
-    assert acc.count(ITEM, "S", "not read: SBAS") == 1
-    assert acc.count(ITEM, "I", "not read: NavIC LNAV") == 1
-    assert nav.header["skipped"] == {"S SBAS": 1, "I LNAV": 1}
-    assert acc.count(ITEM, "G", "used") == 1
+    assert acc.count(ITEM, "S", "used") == 1 and acc.count(ITEM, "I", "used") == 1
+    assert nav.header["skipped"] == {}
+    assert acc.count(ITEM, "G", "used") == 1 and acc.unbalanced() == []
 
 
 def test_rinex4_record_kinds_are_counted(tmp_path):
+    # Since issue 14: CNAV, SBAS, STO and EOP are read; a CNAV record one line short is damaged.
     header = HEADER3.replace("3.04", "4.00")
     sto = ("> STO C21 CNVX\n    2018 07 29 00 20 00 BDGA\n"
            "     2.286000000000e+03-2.502929419279e-08 2.664535259100e-14 6.776263578034e-21\n")
-    eop = "> EOP G27 CNVX\n    2018 07 29 16 51 12-4.024982452393e-02 3.957748413086e-05 0.0e+00\n"
-    text = (header + "> EPH G02 LNAV\n" + RECORD + "> EPH G02 CNAV\n" + RECORD + "    extra\n"
-            + sto + eop + "> EPH S23 SBAS\n" + SBAS)
+    eop = ("> EOP G27 CNVX\n    2018 07 29 16 51 12-4.024982452393e-02 3.957748413086e-05 0.000000000000e+00\n"
+           "                        3.562908172607e-01 2.602100372314e-03 0.000000000000e+00\n"
+           "     4.392000000000e+03-1.940387487411e-02-1.411736011505e-04 0.000000000000e+00\n")
+    # the LNAV record read as CNAV: its IODE slot is A_dot there (53 m/s cannot be): 0.053 m/s
+    # and its L2-codes slot Delta n0 dot (1 rad/s^2 cannot be): 1e-13
+    cnav = RECORD.replace("5.300000000000E+01", "5.300000000000E-02").replace(
+        "1.000000000000E+00 2.012000000000E+03", "1.000000000000E-13 2.012000000000E+03") \
+        + "     6.000000000000e+00 2.012000000000e+03\n"
+    text = (header + "> EPH G02 LNAV\n" + RECORD + "> EPH G02 CNAV\n" + cnav + sto + eop
+            + "> EPH S23 SBAS\n" + SBAS + "> EPH G03 CNAV\n" + RECORD.replace("G02", "G03"))
     _, nav = _read(tmp_path, text)
     acc = nav.accounting
-    assert acc.count(ITEM, "G") == 2 and acc.count(ITEM, "G", "not read: CNAV") == 1
-    assert acc.count(ITEM, "-", "not read: STO") == 1 and acc.count(ITEM, "-", "not read: EOP") == 1
-    assert acc.count(ITEM, "S", "not read: SBAS") == 1
-    assert nav.header["skipped"] == {"EPH G CNAV": 1, "STO": 1, "EOP": 1, "EPH S SBAS": 1}
+    assert acc.count(ITEM, "G") == 3 and acc.count(ITEM, "G", "used") == 2
+    assert acc.count(ITEM, "G", "damaged") == 1              # G03 CNAV: 8 of 9 lines
+    assert acc.count(ITEM, "-", "used") == 2 and acc.count(ITEM, "S", "used") == 1
+    assert nav.header["skipped"] == {} and acc.unbalanced() == []
+    assert sorted(nav.ephemerides["G"].nav_type) == ["CNAV", "LNAV"]
+    sto_entry = nav.header["system_time_offsets"][0]
+    assert (sto_entry["code"], sto_entry["a0_s"], sto_entry["message"]) == ("BDGA", -2.502929419279e-08, "CNVX")
+    assert nav.header["time_corrections"]["BDGA"]["a1_s_per_s"] == 2.664535259100e-14
+    eop_entry = nav.header["earth_orientation"][0]
+    assert (eop_entry["y_pole_arcsec"], eop_entry["ut1_utc_s"]) == (3.562908172607e-01, -1.940387487411e-02)
 
 
 KLOBUCHAR = ("    2018 07 29 00 08 54 3.259629011154e-08 7.450580596924e-09-1.788139343262e-07\n"
@@ -316,8 +330,9 @@ def test_rinex4_ion_message_type_is_checked(tmp_path):
     assert nav.header["ionosphere"]["BDSA"] == [3.259629011154e-08, 7.450580596924e-09,
                                                 -1.788139343262e-07, 0.0]
     acc = nav.accounting
-    assert acc.count(ITEM, "-", "not read: ION C CNVX") == 1
-    assert acc.count(ITEM, "-", "used") == 1
+    assert acc.count(ITEM, "-", "used") == 2              # BDGIM kept too since issue 14
+    assert nav.header["ionosphere_models"]["C CNVX"]["values"][:3] == [35.5, 2.0, 12.0]
+    assert len(nav.header["ionosphere_models"]["C CNVX"]["values"]) >= 9
     assert acc.count(ITEM, "-", "not read: empty ION record") == 1
     assert acc.count(ITEM, "C") == 0 and acc.count(ITEM, "G", "used") == 1
 

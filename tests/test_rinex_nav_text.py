@@ -117,7 +117,7 @@ def test_mojn_times_and_types(mojn):
     assert nav.header["ionosphere"]["GAL"] == [28.25, 7.8125e-03, 1.0071e-02]
     assert nav.header["ionosphere"]["GPSB"] == [8.1920e+04, 9.8304e+04, -6.5536e+04, -5.2429e+05]
     assert nav.header["time_corrections"]["GPUT"]["a0_s"] == 9.3132257462e-10
-    assert nav.header["skipped"] == {"S SBAS": 2168}
+    assert nav.header["skipped"] == {} and len(nav.ephemerides["S"]) == 2168  # SBAS read since issue 14
     for table in nav.ephemerides.values():  # contract: sorted by (sv, toc), RangeIndex
         assert list(table.index) == list(range(len(table)))
         keys = list(zip(table.sv, table.toc))
@@ -152,7 +152,8 @@ def test_rinex4_matches_the_text():
     # The nav_type comes from the marker line: E01 is there as INAV and FNAV with the same toc.
     e01 = nav.ephemerides["E"].query("sv == 'E01'")
     assert {"INAV", "FNAV"} <= set(e01.nav_type)
-    assert nav.header["skipped"] == {"EPH S SBAS": 158, "STO": 3}
+    assert nav.header["skipped"] == {}       # SBAS and STO read since issue 14
+    assert len(nav.ephemerides["S"]) == 158 and len(nav.header["system_time_offsets"]) == 3
     # "> ION G29 LNAV": alpha0-3 then beta0-3.
     assert nav.header["ionosphere"]["GPSA"] == [1.024454832077E-08, 2.235174179077E-08,
                                                 -5.960464477539E-08, -1.192092895508E-07]
@@ -284,19 +285,16 @@ def test_rinex4_accounting_of_every_record_kind():
     acc = nav.accounting
     assert acc.unbalanced() == [] and acc.warnings == []
     cells = {s: c for s, c in acc.as_dict()["navigation_records"].items()}
-    assert cells["G"] == {"read": 762, "used": 428, "not read: CNAV": 334}
+    # Since issue 14 every kind is read: nothing "not read" remains.
+    assert cells["G"] == {"read": 762, "used": 762}
     assert cells["E"] == {"read": 5840, "used": 5840}
-    assert cells["C"] == {"read": 2621, "used": 1061, "not read: CNV1": 634, "not read: CNV2": 926}
-    assert cells["J"] == {"read": 292, "used": 96, "not read: CNAV": 98, "not read: CNV2": 98}
+    assert cells["C"] == {"read": 2621, "used": 2621}
+    assert cells["J"] == {"read": 292, "used": 292}
     assert cells["R"] == {"read": 1240, "used": 1240}
-    assert cells["I"] == {"read": 283, "not read: NavIC LNAV": 283}
-    assert cells["S"] == {"read": 9072, "not read: SBAS": 9072}
+    assert cells["I"] == {"read": 283, "used": 283}
+    assert cells["S"] == {"read": 9072, "used": 9072}
     dash = cells["-"]
-    assert (dash["not read: STO"], dash["not read: EOP"]) == (126, 32)
-    assert dash["not read: ION C CNVX"] == 12          # BDGIM: not Klobuchar
-    assert dash["read"] == 126 + 32 + 130              # 130 "> ION" markers
-    assert dash["used"] == 5                           # the first Klobuchar/NeQuick-G of G E C J I
-    assert dash["not read: later ION record of the same kind"] == 130 - 12 - 5
+    assert dash == {"read": 126 + 32 + 130, "used": 126 + 32 + 130}   # STO, EOP, 130 "> ION" markers
     assert sorted(nav.header["ionosphere"]) == ["BDSA", "BDSB", "GAL", "GPSA", "GPSB", "IRNA", "IRNB",
                                                 "QZSA", "QZSB"]
     assert {s: len(t) for s, t in nav.ephemerides.items()} == nav.header["n_records"]

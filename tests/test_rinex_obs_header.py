@@ -87,10 +87,11 @@ def _pdel_with_scale(tmp_path, scale, keep_leap=True):
 
 @pytest.mark.refdata
 @pytest.mark.parametrize("scale, keep_leap, offset_s, name", [
-    # GLONASST = UTC(SU) + 3 h (GLONASS ICD 2008, 3.3.3); GPST - UTC = 18 s from the header
-    # LEAP SECONDS line (and from IERS Bulletin C since 2017-01-01, published).
-    ("GLO", True, -3 * 3600 + 18, "GLONASST"),
-    ("GLO", False, -3 * 3600 + 18, "GLONASST"),
+    # "GLO (=UTC time system)": RINEX 2.11 table A1 and RINEX 3.x table A2 (the latter from
+    # memory): the time tags are UTC, not GLONASST = UTC(SU) + 3 h; GPST - UTC = 18 s from the
+    # header LEAP SECONDS line (and from IERS Bulletin C since 2017-01-01, published).
+    ("GLO", True, 18, "UTC"),
+    ("GLO", False, 18, "UTC"),
     # BDT = GPST - 14 s (BDS-SIS-ICD-B1I 3.0, 5.2.2, published).
     ("BDT", True, 14, "BDT"),
     ("GAL", True, 0, "GST"),

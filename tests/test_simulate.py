@@ -252,3 +252,26 @@ def test_committed_sample_logs_are_what_the_simulator_writes(tmp_path):
             f"sample_logs/{entry['path']} is stale: rerun `gnssrel simulate --output sample_logs`"
     size = sum(p.stat().st_size for p in SAMPLE_LOGS.iterdir())
     assert size < 3.2e6
+
+
+def test_eccentricities_look_like_the_real_constellations():
+    # issue 12: the demo's orbits must give the magnitudes a user meets on real data.  Ranges (from memory,
+    # common knowledge of the constellations): GPS e up to ~0.02, Galileo 0.0002-0.001 (E14/E18 aside),
+    # BeiDou MEO/IGSO 0.001-0.005.
+    ref = build_scenario().reference.set_index("sv")
+    e = ref["eccentricity"]
+    gps, gal, bds = (e[e.index.str[0] == s] for s in "GEC")
+    assert gps.max() == pytest.approx(0.02) and gps.idxmax() == "G15" and gps.min() >= 0.002
+    assert gal.between(0.0002, 0.001).all() and bds.between(0.001, 0.005).all()
+    # The largest periodic term: amplitude 2 sqrt(mu a) e / c^2 = -F e sqrt(A) (IS-GPS-200 20.3.3.3.3.1,
+    # F = -2 sqrt(mu) / c^2 = -4.442807633e-10 s/m^0.5): 45.8 ns for G15, 13.7 m of range
+    mu = 3.986005e14
+    amplitude_s = 2 * np.sqrt(mu * ref.loc["G15", "sqrt_a_sqrt_m"] ** 2) * 0.02 / C_M_S ** 2
+    assert amplitude_s == pytest.approx(45.8e-9, abs=0.1e-9)
+    nav_path = SAMPLE_LOGS / "KVRP00ZZZ_R_20251621000_03H_MN.rnx"
+    from gnssrel.io.rinex_nav import read_navigation
+
+    g15 = read_navigation(nav_path).ephemerides["G"].query("sv == 'G15'")
+    assert g15["eccentricity"].iloc[0] == pytest.approx(0.02, abs=1e-9)
+    assert 4.442807633e-10 * (g15["eccentricity"] * g15["sqrt_a_sqrt_m"]).iloc[0] == \
+        pytest.approx(amplitude_s, rel=1e-6)

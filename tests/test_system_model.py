@@ -9,7 +9,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from gnssrel.constants import C_M_S, SYSTEM_ORDER, SYSTEMS
+from gnssrel.constants import ALL_SYSTEM_ORDER, C_M_S, SYSTEM_ORDER, SYSTEMS
 from gnssrel.orbits import status
 from gnssrel.orbits.frames import inertial_velocity, omega_cross_r, osculating_elements, rotate_z
 from gnssrel.orbits.models import ORBIT_MODELS, broadcast_clock_s, clock_polynomial_s, orbit_model
@@ -23,7 +23,8 @@ from gnssrel.timescales import SYSTEM_TIME_SCALE
 
 
 def test_every_system_has_one_complete_row():
-    assert set(SYSTEM_MODELS) == set(SYSTEM_ORDER) == set(SYSTEM_LIMITS)
+    assert set(SYSTEM_MODELS) == set(ALL_SYSTEM_ORDER) == set(SYSTEM_LIMITS)
+    assert SYSTEM_ORDER == "GECJR" and ALL_SYSTEM_ORDER == "GECJRIS"   # NavIC, SBAS only when asked
     for letter, model in SYSTEM_MODELS.items():
         assert model.orbit_model in ORBIT_MODELS
         assert model.constants is SYSTEMS[letter] and model.time_scale == SYSTEM_TIME_SCALE[letter]
@@ -75,7 +76,8 @@ def test_the_model_picks_the_form_of_the_periodic_term():
 
 def test_orbit_model_columns_are_the_evaluators_inputs():
     assert "sqrt_a_sqrt_m" in orbit_model("G").columns and "x_m" in orbit_model("R").columns
-    assert orbit_model("C").optional_columns == ("toe_sow_s", "is_geo")
+    assert orbit_model("C").optional_columns == ("toe_sow_s", "is_geo", "a_dot_m_per_s", "delta_n_dot_rad_per_s2")
+    assert orbit_model("I") is orbit_model("G") and "vx_m_per_s" in orbit_model("S").columns
 
 
 def test_frame_helpers_are_the_rotation_and_omega_cross_r():

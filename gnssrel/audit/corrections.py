@@ -43,7 +43,7 @@ from gnssrel.audit.satellites import offset_times
 from gnssrel.constants import C_M_S, SYSTEMS
 from gnssrel.errors import GnssrelInputError
 from gnssrel.relativity.signal_path import light_time, shapiro_m
-from gnssrel.timescales import GPS_EPOCH, seconds_between
+from gnssrel.timescales import seconds_between
 
 DEFAULT_TERMS = {"periodic": "applied", "sagnac": True, "shapiro": True, "j2": False}
 PERIODIC_FACTORS = HYPOTHESES
@@ -102,18 +102,9 @@ def atmosphere_m(obs: dict, receiver_ecef_m, elevation_rad, azimuth_rad, ionosph
     t = obs["time"]
     doy = (seconds_between(t, t.astype("datetime64[Y]")) / 86_400.0) + 1.0
     tropo = troposphere.slant_delay_m(elevation_rad, lat, h, doy)
-    iono = np.zeros(t.shape)
-    single = np.isfinite(obs["frequency_hz"])
-    coeff = (ionosphere_header or {})
-    alpha, beta = coeff.get("GPSA"), coeff.get("GPSB")
-    if single.any():
-        if alpha is None or beta is None:
-            iono[single] = np.nan                            # no model: say so, do not guess
-        else:
-            sow = np.mod(seconds_between(t[single], GPS_EPOCH), 604_800.0)
-            iono[single] = ionosphere.klobuchar_delay_m(obs["frequency_hz"][single], lat[single], lon[single],
-                                                        elevation_rad[single], azimuth_rad[single], sow,
-                                                        alpha, beta)
+    # broadcast model per system (GPS/QZSS/BeiDou Klobuchar; NaN where none: say so, do not guess)
+    iono = ionosphere.broadcast_delay_m(obs["system"], obs["frequency_hz"], lat, lon, elevation_rad, azimuth_rad,
+                                        t, ionosphere_header)
     return tropo, iono
 
 

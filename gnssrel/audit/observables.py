@@ -24,7 +24,7 @@ import numpy as np
 
 from gnssrel import signals
 from gnssrel.accounting import Ledger
-from gnssrel.audit import ionosphere, satellites
+from gnssrel.audit import ionosphere, satellites, smoothing
 from gnssrel.errors import NoDataError
 from gnssrel.orbits import selection
 from gnssrel.orbits.selection import take_rows
@@ -34,11 +34,12 @@ log = logging.getLogger(__name__)
 
 # Plausible code pseudoranges in metres for a receiver on or near the ground (derived from
 # the orbit radii: GPS 26 560 km, Galileo 29 600 km, BeiDou MEO 27 900 km and GEO/IGSO 42 160 km,
-# QZSS 39 000-45 300 km; minus the Earth radius at zenith, plus the horizon geometry, plus a +-1 ms
-# receiver clock margin of 300 km).  Values outside are gross errors, dropped before any fit.
-# GLONASS 25 500 km: 1.85e7 to 2.55e7 m, same margin.
-PLAUSIBLE_RANGE_M = {"G": (1.9e7, 2.7e7), "E": (2.2e7, 3.0e7), "C": (1.9e7, 4.3e7), "J": (3.0e7, 4.6e7),
-                     "R": (1.8e7, 2.6e7)}
+# QZSS 39 000-45 300 km, GLONASS 25 500 km; from the range at zenith, radius - 6371 km, to the
+# range at the horizon, sqrt(radius^2 - 6371^2 km^2); plus a +-10 ms receiver clock margin of
+# 3000 km: low-cost receivers run milliseconds off, e.g. -3.9 to -4.4 ms over 36 min, issue 13).
+# Values outside are gross errors, dropped before any fit.
+PLAUSIBLE_RANGE_M = {"G": (1.7e7, 2.9e7), "E": (2.0e7, 3.2e7), "C": (1.8e7, 4.5e7), "J": (2.9e7, 4.8e7),
+                     "R": (1.6e7, 2.8e7)}
 
 AUDIT_SYSTEMS = "GECJR"
 """Systems the audit handles."""
@@ -82,13 +83,21 @@ def _finite_per_variable(obs_ds, variables, cols) -> dict[str, np.ndarray]:
     return {v: np.isfinite(np.asarray(obs_ds[v].values, dtype=float)[:, cols]) for v in variables}
 
 
-def select_pseudoranges(obs_ds, systems=None) -> dict[str, np.ndarray]:
-    """Choose, per system, the code pair or single code (``ionosphere.choose_codes``) and
-    return the flat arrays ``epoch``, ``sv``, ``system``, ``pseudorange_m``, ``code``,
-    ``frequency_hz`` of every (epoch, satellite) with a usable pseudorange."""
+ONLY_ONE_FREQUENCY = "single frequency only (--frequencies dual)"
+
+
+def select_pseudoranges(obs_ds, systems=None, frequencies: str = "auto",
+                        smooth_code_s: float | None = None) -> dict[str, np.ndarray]:
+    """Choose, per system, the code pair or single code (``ionosphere.choose_codes`` with
+    ``frequencies``: "auto", "single" or "dual") and return the flat arrays ``epoch``, ``sv``,
+    ``system``, ``pseudorange_m``, ``code``, ``frequency_hz`` of every (epoch, satellite) with
+    a usable pseudorange.  ``smooth_code_s``: carrier-smooth the codes over this window, s
+    (Hatch filter, :mod:`gnssrel.audit.smoothing`; None = raw codes); the result's
+    ``smoothing`` then holds per system what was smoothed and how."""
     sv_all = np.asarray(obs_ds["sv"].values).astype(str)
-    variables = code_variables(obs_ds)
+    variables = [v for v in code_variables(obs_ds) if not v.endswith(("lli", "ssi"))]   # with_flags
     parts = _empty_like_fields()
+    smoothing_info, noise = {}, {}
     wanted = set(systems) if systems else set(AUDIT_SYSTEMS)
     drops = Ledger()          # what this stage leaves aside, per system (retired from "used")
     for system in sorted({s[0] for s in sv_all}):
@@ -100,11 +109,14 @@ def select_pseudoranges(obs_ds, systems=None) -> dict[str, np.ndarray]:
             continue
         # Codes this system has data in (a mixed file holds every system's codes as variables).
         held = {v for v in variables if finite[v].any()}
-        codes = ionosphere.choose_codes(system, held)
+        codes = ionosphere.choose_codes(system, held, frequencies)
         if codes is None:
-            log.warning("no usable code observable for system %s; skipped", system)
-            drops.retire("observations", system, NO_CODE, n_all)
+            single_only = frequencies == "dual" and ionosphere.choose_codes(system, held) is not None
+            log.warning("%s for system %s; skipped", ONLY_ONE_FREQUENCY if single_only else NO_CODE, system)
+            drops.retire("observations", system, ONLY_ONE_FREQUENCY if single_only else NO_CODE, n_all)
             continue
+        if len(codes) == 2:
+            codes, noise[system] = _pair_or_single(obs_ds, system, codes, cols, held, frequencies)
         drops.retire("observations", system, OTHER_SIGNAL,
                      int(sum(f.sum() for v, f in finite.items() if v not in codes)))
         arrays = [np.asarray(obs_ds[c].values, dtype=float)[:, cols] for c in codes]
@@ -115,6 +127,8 @@ def select_pseudoranges(obs_ds, systems=None) -> dict[str, np.ndarray]:
         else:
             p = arrays[0]
             freq = signals.frequency_hz(system, codes[0])
+        if smooth_code_s:
+            p, smoothing_info[system] = smoothing.smooth_code(obs_ds, system, codes, cols, p, smooth_code_s)
         lo, hi = PLAUSIBLE_RANGE_M[system]
         if len(codes) == 2:              # one code of a pair alone cannot make the combination
             drops.retire("observations", system, NO_SECOND, int((finite[codes[0]] ^ finite[codes[1]]).sum()))
@@ -137,7 +151,29 @@ def select_pseudoranges(obs_ds, systems=None) -> dict[str, np.ndarray]:
     order = np.lexsort((out["sv"], out["epoch"]))
     out = {k: v[order] for k, v in out.items()}
     out["accounting"] = drops
+    out["code_noise"] = {s: v for s, v in noise.items() if v is not None}   # pairs: noise from the data
+    if smooth_code_s:
+        out["smoothing"] = smoothing_info
     return out
+
+
+def _pair_or_single(obs_ds, system, codes, cols, held, frequencies):
+    """(codes, noise) for a system with a pair: the pair's noise measured in the data
+    (:func:`gnssrel.audit.ionosphere.pair_noise_m`), and with ``frequencies`` "auto" one code
+    instead when the combination is noisier than :data:`gnssrel.audit.ionosphere.NOISY_COMBINATION_M`
+    (low-cost receivers: the broadcast model's error is then the smaller one)."""
+    f1, f2 = (signals.frequency_hz(system, c) for c in codes)
+    noise = ionosphere.pair_noise_m(*(np.asarray(obs_ds[c].values, dtype=float)[:, cols] for c in codes), f1, f2)
+    if noise is None:
+        return codes, None
+    noise["choice"] = "+".join(codes)
+    single = ionosphere.choose_codes(system, held, "single")
+    if frequencies == "auto" and single and noise["ionosphere_free_m"] > ionosphere.NOISY_COMBINATION_M:
+        log.info("system %s: the %s combination is too noisy (%.1f m); %s with the broadcast ionosphere model",
+                 system, "+".join(codes), noise["ionosphere_free_m"], single[0])
+        noise["choice"] = single[0]
+        codes = single
+    return codes, noise
 
 
 def _no_pseudorange_message(obs_ds, sv_all, wanted, drops) -> str:
@@ -204,16 +240,50 @@ _FIELDS = {"satellite_clock_s": "satellite_clock_s", "periodic_s": "periodic_s",
 """Observation key <- key of the per-system state dict of :mod:`gnssrel.audit.satellites`."""
 
 
+def signal_strengths(obs_ds, obs: dict) -> dict[str, np.ndarray]:
+    """The logged signal strength (RINEX ``S`` observable of the same band and attribute as each
+    code: ``C1C`` -> ``S1C``, RINEX 2 ``C1``/``P1`` -> ``S1``) of every selected observation.
+
+    Returns ``cn0_dbhz`` (the first code's), ``cn0_second_dbhz`` (the second code's of a
+    combination, else NaN) and ``combination_gains`` ``(n, 2)``: |g1|, |g2| of the ionosphere-free
+    combination g1 P1 - g2 P2 (g1 = f1^2 / (f1^2 - f2^2), g2 = f2^2 / (f1^2 - f2^2)), (1, 0) for
+    one code; NaN where the file has no such variable.  Values are as logged (RINEX 3: dB-Hz);
+    the weight model decides what it accepts.
+    """
+    n = obs["epoch"].size
+    out = {"cn0_dbhz": np.full(n, np.nan), "cn0_second_dbhz": np.full(n, np.nan),
+           "combination_gains": np.column_stack([np.ones(n), np.zeros(n)])}
+    if n == 0:
+        return out
+    sv_names = np.asarray(obs_ds["sv"].values).astype(str)
+    column = {name: k for k, name in enumerate(sv_names)}
+    col = np.array([column[s] for s in obs["sv"]], dtype=np.int64)
+    for code in np.unique(obs["code"]):
+        idx = np.flatnonzero(obs["code"] == code)
+        parts = str(code).split("+")
+        for key, part in zip(("cn0_dbhz", "cn0_second_dbhz"), parts):
+            name = "S" + part[1:]
+            if name in obs_ds.data_vars:
+                out[key][idx] = np.asarray(obs_ds[name].values, dtype=float)[obs["epoch"][idx], col[idx]]
+        if len(parts) == 2:
+            system = str(obs["system"][idx[0]])
+            f1, f2 = (signals.frequency_hz(system, c) for c in parts)
+            out["combination_gains"][idx] = (f1**2 / (f1**2 - f2**2), f2**2 / (f1**2 - f2**2))
+    return out
+
+
 def prepare_observations(obs_ds, nav, systems=None, include_unhealthy: bool = False, precise=None,
-                         rule: str = "post") -> dict:
+                         rule: str = "post", code_options: dict | None = None) -> dict:
     """Flat per-observation arrays with transmit time, satellite state and clock terms.
 
     ``nav``: a ``NavigationData`` (records for the choice of group delays and, without
     ``precise``, the orbits and clocks).  ``precise``: None, or a mapping with ``orbits``
     (an SP3 Dataset) and ``clocks`` (a Dataset with ``clock_s``: the SP3 or a RINEX clock file).
     ``rule``: the record-selection rule, ``"post"`` or ``"receiver"`` (:mod:`gnssrel.orbits.selection`).
+    ``code_options``: keywords of :func:`select_pseudoranges` (``frequencies``, ``smooth_code_s``).
     """
-    obs = select_pseudoranges(obs_ds, systems)
+    obs = select_pseudoranges(obs_ds, systems, **(code_options or {}))   # frequencies, smooth_code_s
+    obs.update(signal_strengths(obs_ds, obs))            # C/N0 for the weights of the fixes
     times = np.asarray(obs_ds["time"].values, dtype="datetime64[ns]")
     obs["time"] = times[obs["epoch"]]
     n = obs["epoch"].size

@@ -12,6 +12,9 @@ periodic term dt_r = F e sqrt(A) sin E (IS-GPS-200 20.3.3.3.3.1).  So
     y + k c dt_r = b(epoch) + o(satellite) + noise
 
 holds with k = 1 when the term is real and applied as the specification says.
+A single-frequency code enters with its broadcast ionosphere model I subtracted from y too
+(:func:`gnssrel.audit.ionosphere.broadcast_delay_m`); the model's error, taken as half of I,
+is systematic, and its effect on k is added to the sigma (:func:`fit_periodic_factor`).
 b is the receiver clock per epoch; o absorbs per-satellite code biases and
 broadcast-orbit/clock offsets (without it k drifts by a few hundredths).
 
@@ -49,6 +52,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from gnssrel.audit.ionosphere import MODEL_RMS_FRACTION
 from gnssrel.constants import C_M_S
 
 HYPOTHESES = {"applied": 1.0, "omitted": 0.0, "reversed": -1.0, "doubled": 2.0}
@@ -172,19 +176,26 @@ def _jackknife_sigma(y, x, epoch, sat) -> float:
 
 
 def fit_periodic_factor(residual_m, periodic_m, epoch, sv, reject_sigma: float = 5.0,
-                        jackknife: bool = True) -> dict:
+                        jackknife: bool = True, model_error_m=None) -> dict:
     """Fit k in ``residual_m + k periodic_m = b(epoch) + o(sv) + noise`` (1-D arrays ``(n,)``).
 
     ``residual_m`` is y of the module text, ``periodic_m`` = c dt_r.  Returns ``k``,
     ``sigma`` (jackknife over satellites, NaN with fewer than 3), ``sigma_formal``,
     ``rms_m`` {applied, omitted, reversed, doubled} (residual RMS with k fixed to 1, 0, -1, 2),
     ``rms_fit_m``, ``n_obs``, ``n_rejected``, ``n_sat``, ``n_epochs``.
+
+    ``model_error_m``: ``(n,)`` one-sigma error of a correction inside ``residual_m`` whose error
+    is systematic (the broadcast ionosphere model of single-frequency codes, a fixed fraction of
+    the delay).  k is linear in y, so such an error moves k by the k fitted to ``model_error_m``
+    alone (same observations, same effects); its absolute value is returned as
+    ``sigma_model`` and added in quadrature to ``sigma``.
     """
     y = np.asarray(residual_m, float)
     x = np.asarray(periodic_m, float)
-    ok = np.isfinite(y) & np.isfinite(x)
+    err = np.zeros(y.shape) if model_error_m is None else np.asarray(model_error_m, float)
+    ok = np.isfinite(y) & np.isfinite(x) & np.isfinite(err)
     epoch, sv = np.asarray(epoch)[ok], np.asarray(sv)[ok]
-    y, x = y[ok], x[ok]
+    y, x, err = y[ok], x[ok], err[ok]
     epoch_id, sat_id = _dense_ids(epoch), _dense_ids(sv)
     keep = np.ones(y.size, bool)
     for _ in range(10):                                   # outlier rejection, iterated
@@ -196,13 +207,16 @@ def fit_periodic_factor(residual_m, periodic_m, epoch, sv, reject_sigma: float =
             break                        # the fit stays, its jackknife sigma says "undetermined"
         idx = np.flatnonzero(keep)
         keep[idx[bad]] = False
-    y, x, epoch_id, sat_id = y[keep], x[keep], epoch_id[keep], sat_id[keep]
+    y, x, err, epoch_id, sat_id = y[keep], x[keep], err[keep], epoch_id[keep], sat_id[keep]
     e, s = _dense_ids(epoch_id), _dense_ids(sat_id)
     k, formal, resid, fixed = _solve(y, x, e, s, fixed_k=HYPOTHESES.values())
     rms = {name: float(np.sqrt(np.mean(r**2))) for name, r in zip(HYPOTHESES, fixed)}
     n_sat = int(s.max()) + 1
     sigma_jk = _jackknife_sigma(y, x, e, s) if jackknife else np.nan
-    return {"k": k, "sigma": sigma_jk, "sigma_formal": formal, "rms_m": rms,
+    sigma_model = abs(_solve(err, x, e, s)[0]) if np.any(err) else 0.0
+    sigma_model = sigma_model if np.isfinite(sigma_model) else np.nan
+    return {"k": k, "sigma": float(np.hypot(sigma_jk, sigma_model)), "sigma_jackknife": sigma_jk,
+            "sigma_model": float(sigma_model), "sigma_formal": formal, "rms_m": rms,
             "rms_fit_m": float(np.sqrt(np.mean(resid**2))), "n_obs": int(y.size),
             "n_rejected": int((~keep).sum()), "n_sat": n_sat,
             "n_epochs": int(e.max()) + 1}
@@ -212,36 +226,81 @@ DETERMINED_SIGMA = 0.25
 """A k whose jackknife sigma exceeds this cannot tell "applied" (1) from "omitted" (0) at 4 sigma:
 reported, with status "undetermined"."""
 
+GROSS_RMS_M = 50.0
+"""A fit whose residual RMS exceeds this (m) says so in its status: the codes themselves are broken
+(the periodic term is at most ~14 m: c x 46 ns for e = 0.02, derived)."""
+
+MIN_OBSERVATIONS = 20
+"""Fewer observations above the mask than this: no k fit for the system."""
+
+
+def _fit_mask(df, system, elevation_mask_deg):
+    """Observations of ``system`` a k fit can use: above the mask, with a satellite clock, and an
+    ionosphere-free code or a single-frequency code with a broadcast ionosphere model."""
+    return ((df["system"] == system) & (df["elevation_deg"] >= elevation_mask_deg)).to_numpy() \
+        & np.isfinite(df["satellite_clock_s"].to_numpy()) & np.isfinite(df["ionosphere_m"].to_numpy())
+
 
 def relativity_k(corrections, elevation_mask_deg: float = 10.0, systems=None, jackknife: bool = True) -> dict:
     """Per-system k fit from an :func:`gnssrel.audit.corrections.observation_corrections` table.
 
-    Uses ionosphere-free codes only (``code`` containing ``+``): a single-frequency code
-    carries the ionosphere, whose model error would leak into k.  Each system's entry adds
-    ``expected_k``: 1 where the user adds the periodic term to the clock used, 0 where that
-    clock already holds it (GLONASS broadcast, ``periodic_in_clock``; GLONASS ICD convention,
-    REFERENCE-CHECKS 3.3), and ``status``: "consistent" (|k - expected| <= 3 sigma),
-    "inconsistent", or "undetermined: ..." (sigma above :data:`DETERMINED_SIGMA` or too few
-    satellites for a jackknife).
+    Uses ionosphere-free codes (``code`` containing ``+``) and single-frequency codes corrected
+    by a broadcast ionosphere model (``ionosphere_m`` finite; :func:`gnssrel.audit.ionosphere.model_for`):
+    their model error, :data:`gnssrel.audit.ionosphere.MODEL_RMS_FRACTION` of the delay, enters
+    the sigma as a systematic term (``sigma_model``, see :func:`fit_periodic_factor`).  Each
+    system's entry adds ``expected_k``: 1 where the user adds the periodic term to the clock used,
+    0 where that clock already holds it (GLONASS broadcast, ``periodic_in_clock``; GLONASS ICD
+    convention, REFERENCE-CHECKS 3.3), ``frequencies`` ("dual" or "single"), and ``status``:
+    "consistent" (|k - expected| <= 3 sigma), "inconsistent", or "undetermined: ..." (sigma above
+    :data:`DETERMINED_SIGMA` or too few satellites for a jackknife).  Systems with no fit at all:
+    :func:`why_no_k`.
     """
     df = corrections
     out = {}
     for system in sorted(df["system"].unique()):
         if systems and system not in systems:
             continue
-        m = ((df["system"] == system) & (df["elevation_deg"] >= elevation_mask_deg)
-             & df["code"].str.contains("+", regex=False)).to_numpy()
-        m = m & np.isfinite(df["satellite_clock_s"].to_numpy())
-        if m.sum() < 20:
+        m = _fit_mask(df, system, elevation_mask_deg)
+        if m.sum() < MIN_OBSERVATIONS:
             continue
         d = df.loc[m]
         y = (d["pseudorange_m"] - d["geometric_range_m"] - d["shapiro_m"] - d["troposphere_m"]
-             - d["group_delay_m"] + C_M_S * d["satellite_clock_s"]).to_numpy()
+             - d["ionosphere_m"] - d["group_delay_m"] + C_M_S * d["satellite_clock_s"]).to_numpy()
+        model_error = MODEL_RMS_FRACTION * d["ionosphere_m"].to_numpy()
         fit = fit_periodic_factor(y, C_M_S * d["periodic_s"].to_numpy(),
-                                  d["time"].to_numpy(), d["sv"].to_numpy(), jackknife=jackknife)
+                                  d["time"].to_numpy(), d["sv"].to_numpy(), jackknife=jackknife,
+                                  model_error_m=model_error)
         fit["expected_k"] = 0.0 if d["periodic_in_clock"].to_numpy().all() else 1.0
+        fit["frequencies"] = "dual" if d["code"].str.contains("+", regex=False).all() else "single"
         fit["status"] = _status(fit)
         out[system] = fit
+    return out
+
+
+def why_no_k(corrections, fits: dict, elevation_mask_deg: float = 10.0, systems=None) -> dict[str, str]:
+    """{system: why it has no k fit} for every system of the table that :func:`relativity_k`
+    did not fit (the first reason that applies, with the numbers)."""
+    df = corrections
+    out = {}
+    for system in sorted(df["system"].unique()):
+        if (systems and system not in systems) or system in fits:
+            continue
+        mine = (df["system"] == system).to_numpy()
+        clock = mine & np.isfinite(df["satellite_clock_s"].to_numpy())
+        above = clock & (df["elevation_deg"] >= elevation_mask_deg).to_numpy()
+        modelled = above & np.isfinite(df["ionosphere_m"].to_numpy())
+        codes = ", ".join(sorted(df.loc[mine, "code"].unique()))
+        if not clock.any():
+            out[system] = (f"no satellite orbit and clock for any of its {int(mine.sum())} pseudoranges "
+                           "(see the accounting)")
+        elif not above.any():
+            out[system] = f"no observation above the {elevation_mask_deg:g} deg elevation mask"
+        elif not modelled.any():
+            out[system] = (f"single-frequency code ({codes}) and no broadcast ionosphere coefficients in the "
+                           "navigation headers: the uncorrected delay would leak into k")
+        else:
+            out[system] = (f"{int(modelled.sum())} usable observations ({codes}, above the "
+                           f"{elevation_mask_deg:g} deg mask, with clock and ionosphere), {MIN_OBSERVATIONS} needed")
     return out
 
 
@@ -250,6 +309,11 @@ def _status(fit: dict) -> str:
     if not np.isfinite(sigma):
         return f"undetermined: {fit['n_sat']} satellites, too few for a jackknife sigma"
     if sigma > DETERMINED_SIGMA:
+        span = "" if fit.get("sigma_model", 0.0) <= fit.get("sigma_jackknife", np.inf) else \
+            ", mostly the ionosphere model's error"
+        if fit.get("rms_fit_m", 0.0) > GROSS_RMS_M:
+            span += (f"; the codes' residual RMS is {fit['rms_fit_m']:.0f} m, far above any relativistic term: "
+                     "gross code errors")
         return (f"undetermined: sigma {sigma:.2f} > {DETERMINED_SIGMA} (the periodic term is too small "
-                f"or too short-lived in these data to be separated from the clock and offsets)")
+                f"or too short-lived in these data to be separated from the clock and offsets{span})")
     return "consistent" if abs(fit["k"] - fit["expected_k"]) <= 3.0 * sigma else "inconsistent"

@@ -8,6 +8,9 @@
     relativity_k {<system>: {k, sigma, rms_m {applied, omitted, reversed, doubled}}}
     position {reference, median_error_3d_m, median_error_3d_m_without_periodic}
     receiver_verdict (a string when receiver fixes or a receiver clock table were given, else None)
+    relativity_k_not_fitted {<system>: why it has no k}
+    codes {frequencies, by_system {<system>: {code, ionosphere (model, coefficients, note,
+           expected_error; or the combination), pair_noise_m}}, smoothing {<system>: ...}}
 
 The receiver verdict joins, with "; ", the fixes verdict (:mod:`gnssrel.audit.firmware`)
 and the clock-table verdict (:func:`gnssrel.clocks.firmware.check_receiver_clocks`,
@@ -21,12 +24,14 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from gnssrel.audit import firmware
+from gnssrel.audit import firmware, integrity, ionosphere
 from gnssrel.audit.corrections import corrections_table
 from gnssrel.audit.observables import prepare_observations, stage_drops
-from gnssrel.audit.positioning import position_errors_3d_m, single_point_positions
-from gnssrel.audit.relativity_fit import relativity_k
+from gnssrel.audit.positioning import OUTLIER, position_errors_3d_m, single_point_positions
+from gnssrel.audit.receiver_clock import clock_summary, receiver_clock_series
+from gnssrel.audit.relativity_fit import relativity_k, why_no_k
 from gnssrel.clocks.firmware import check_receiver_clocks
+from gnssrel.geodesy import ecef_to_geodetic, enu_errors
 
 
 @dataclass
@@ -47,14 +52,22 @@ class AuditResult:
 
 def audit_log(obs_ds, nav, receiver_position_ecef_m=None, systems=None, elevation_mask_deg: float = 10.0,
               fixes: pd.DataFrame | None = None, precise=None,
-              receiver_clocks: pd.DataFrame | None = None, weighting: str = "elevation",
-              rule: str = "post") -> AuditResult:
+              receiver_clocks: pd.DataFrame | None = None, weighting: str = "auto",
+              rule: str = "post", frequencies: str = "auto", smooth_code_s: float | None = None,
+              fix_options: dict | None = None) -> AuditResult:
     """Run the receiver audit on one log (see the module text).
 
     ``precise``: None or ``{"orbits": SP3 Dataset, "clocks": Dataset with clock_s}``
     (:func:`gnssrel.audit.observables.prepare_observations`); ``receiver_clocks``: a table of
     :func:`gnssrel.io.receiver_clocks.read_receiver_clocks`, checked over the log's time span.
     ``rule``: the broadcast record-selection rule, ``"post"`` or ``"receiver"``.
+    ``frequencies`` ("auto", "single", "dual") and ``smooth_code_s`` (Hatch window, s, or None):
+    the codes used (:func:`gnssrel.audit.observables.select_pseudoranges`).
+    ``fix_options``: keywords of :func:`gnssrel.audit.positioning.single_point_positions`
+    (``false_alarm``, ``max_pdop``, ``min_satellites``, ``variance_factor``, ``system_variances``).
+    The fixes of the other hypotheses use the observations, variance factors and s0^2 the
+    "applied" fixes kept (``screening``), so that they differ by the periodic term alone: their
+    own residual test would exclude the satellites a wrong hypothesis hurts most.
     """
     if receiver_position_ecef_m is not None:
         reference, ref = "given", np.asarray(receiver_position_ecef_m, float)
@@ -62,22 +75,28 @@ def audit_log(obs_ds, nav, receiver_position_ecef_m=None, systems=None, elevatio
         reference, ref = "header", np.asarray(obs_ds.attrs["position"], float)
     else:
         reference, ref = "none", None
-    obs = prepare_observations(obs_ds, nav, systems, precise=precise, rule=rule)
+    obs = prepare_observations(obs_ds, nav, systems, precise=precise, rule=rule,
+                               code_options={"frequencies": frequencies, "smooth_code_s": smooth_code_s})
     iono = getattr(nav, "header", {}).get("ionosphere")
     times = obs_ds["time"].values
     hypotheses = dict(firmware.HYPOTHESES) if fixes is not None else \
         {k: firmware.HYPOTHESES[k] for k in ("applied", "omitted")}
     used_in_fix: dict = {}            # the "applied" fix says which observations were used
-    positions = {name: single_point_positions(obs, times.size, times, terms=terms,
-                                              elevation_mask_deg=elevation_mask_deg,
-                                              initial_ecef_m=ref, ionosphere_header=iono,
-                                              weighting=weighting,
-                                              diagnostics=used_in_fix if name == "applied" else None)
-                 for name, terms in hypotheses.items()}
+    positions = {}
+    for name in ["applied"] + [h for h in hypotheses if h != "applied"]:   # the others on its observations
+        positions[name] = single_point_positions(obs, times.size, times, terms=hypotheses[name],
+                                                 elevation_mask_deg=elevation_mask_deg,
+                                                 initial_ecef_m=ref, ionosphere_header=iono,
+                                                 weighting=weighting, **(fix_options or {}),
+                                                 diagnostics=used_in_fix if name == "applied" else None,
+                                                 screening=None if name == "applied" else used_in_fix)
+    positions = {name: positions[name] for name in hypotheses}
     if ref is None:                       # no position known: the corrections use our own median fix
         ref = np.nanmedian(positions["applied"][["x_m", "y_m", "z_m"]].to_numpy(), axis=0)
     corrections = corrections_table(obs, ref, iono)
     fits = relativity_k(corrections, elevation_mask_deg=elevation_mask_deg)
+    codes = _codes_used(obs, iono, frequencies, obs.get("smoothing"))
+    codes["k_not_fitted"] = why_no_k(corrections, fits, elevation_mask_deg)
     firm = firmware.compare_with_hypotheses(fixes, positions) if fixes is not None else None
     clock_check = None
     if receiver_clocks is not None:
@@ -88,7 +107,51 @@ def audit_log(obs_ds, nav, receiver_position_ecef_m=None, systems=None, elevatio
                        firmware=firm, clock_check=clock_check, clock_source=obs["clock_source"],
                        extra={"log": _log_health(obs_ds), "weighting": weighting, "selection_rule": rule,
                               "observation_drops": stage_drops(obs, used_in_fix.get("reasons")),
-                              "ephemeris_rows": _rows_by_system(obs)})
+                              "ephemeris_rows": _rows_by_system(obs), "codes": codes,
+                              "integrity": _integrity(positions["applied"], used_in_fix, fix_options),
+                              "receiver_clock": clock_summary(receiver_clock_series(positions["applied"]))})
+
+
+def _integrity(fixes: pd.DataFrame, diagnostics: dict, fix_options: dict | None) -> dict:
+    """The summary's ``position["integrity"]`` block: the residual test and gates of the fixes
+    (:mod:`gnssrel.audit.integrity`) and what they excluded, per satellite."""
+    options = {"false_alarm": integrity.DEFAULT_FALSE_ALARM, "max_pdop": integrity.DEFAULT_MAX_PDOP,
+               "min_satellites": integrity.DEFAULT_MIN_SATELLITES, **(fix_options or {})}
+    reasons = diagnostics.get("reasons", np.array([], dtype=object))
+    tested = fixes["test_statistic"].notna()
+    return {"false_alarm_probability": options["false_alarm"], "max_pdop": options["max_pdop"],
+            "min_satellites": options["min_satellites"],
+            "variance_of_unit_weight": diagnostics.get("variance_factor"),
+            "system_variance_factors": diagnostics.get("system_variance_factors", {}),
+            "n_excluded_by_test": int((reasons == integrity.EXCLUDED).sum()),
+            "n_outliers": int((reasons == OUTLIER).sum()),
+            "excluded_by_satellite": diagnostics.get("excluded_by_satellite", {}),
+            "n_epochs_failing_test": int((fixes["test_statistic"] > fixes["test_threshold"]).sum()),
+            "n_epochs_tested": int(tested.sum()),
+            "n_epochs_above_pdop_gate": int((fixes["pdop"] > options["max_pdop"]).sum())
+            if options["max_pdop"] is not None else 0,
+            "median_pdop": float(fixes["pdop"].median()) if fixes["pdop"].notna().any() else None}
+
+
+
+def _codes_used(obs, iono_header, frequencies, smoothing) -> dict:
+    """The summary's ``codes`` block: per system the code (pair) used and its ionosphere
+    correction (model, coefficients, expected error), the frequency choice, the smoothing."""
+    out = {"frequencies": frequencies, "by_system": {}}
+    models = ionosphere.models_used(np.unique(obs["system"]).tolist(), iono_header)
+    for system in np.unique(obs["system"]):
+        code = str(obs["code"][obs["system"] == system][0])
+        entry = {"code": code}
+        if "+" in code:
+            entry["ionosphere"] = "ionosphere-free combination (first order)"
+        else:
+            entry["ionosphere"] = models[str(system)]
+        if str(system) in obs.get("code_noise", {}):           # a pair's noise measured in the data
+            entry["pair_noise_m"] = obs["code_noise"][str(system)]
+        out["by_system"][str(system)] = entry
+    if smoothing is not None:
+        out["smoothing"] = smoothing
+    return out
 
 
 def _rows_by_system(obs) -> dict[str, np.ndarray]:
@@ -133,13 +196,15 @@ def audit_summary(result: AuditResult, receiver_clock_verdict: str | None = None
         receiver_clock_verdict = clock_table_verdict(result.clock_check)
     position = {"reference": result.reference, "median_error_3d_m": None,
                 "median_error_3d_m_without_periodic": None,
-                "weighting": result.extra.get("weighting", "elevation")}
+                "weighting": result.extra.get("weighting", "auto")}
     if result.reference != "none":
         for key, name in (("median_error_3d_m", "applied"), ("median_error_3d_m_without_periodic", "omitted")):
             err = position_errors_3d_m(result.positions[name], result.reference_ecef_m)
             position[key] = float(np.nanmedian(err)) if np.isfinite(err).any() else None
         position["n_epochs_solved"] = int(np.isfinite(
             position_errors_3d_m(result.positions["applied"], result.reference_ecef_m)).sum())
+    if "integrity" in result.extra:     # issue 13: residual test, gates, exclusions per satellite
+        position["integrity"] = result.extra["integrity"]
     fixes_verdict = (result.firmware or {}).get("verdict")
     verdicts = [v for v in (f"fixes: {fixes_verdict}" if fixes_verdict else None, receiver_clock_verdict) if v]
     summary = {
@@ -155,20 +220,49 @@ def audit_summary(result: AuditResult, receiver_clock_verdict: str | None = None
         "position": position,
         "receiver_verdict": "; ".join(verdicts) if verdicts else None,
     }
+    if "receiver_clock" in result.extra:    # issue 13: the receiver clock of the fixes, its jumps
+        summary["receiver_clock_estimate"] = result.extra["receiver_clock"]
+    codes = result.extra.get("codes")
+    if codes is not None:           # issue 13: codes, ionosphere model, smoothing, k not fitted and why
+        summary["relativity_k_not_fitted"] = codes.get("k_not_fitted", {})
+        summary["codes"] = {k: v for k, v in codes.items() if k != "k_not_fitted"}
+        for s, f in result.k_fits.items():
+            summary["relativity_k"][s].update({k: f[k] for k in ("sigma_model", "frequencies") if k in f})
     if result.clock_check is not None:
         summary["receiver_clocks"] = result.clock_check
     if result.firmware is not None:
-        summary["receiver_fixes"] = {k: result.firmware[k] for k in ("median_distance_m", "n_matched",
-                                                                      "closest", "margin_m")}
+        summary["receiver_fixes"] = dict(result.firmware)
     return summary
 
 
+HEADER_POSITION_NOTE = ("the reference is the observation file header's approximate position (good to a few "
+                        "metres at best): errors are relative to it; give --position for a surveyed one")
+"""Said (terminal, summary ``position.reference_note``, report notes) where the header position is the reference."""
+
+
 def per_epoch_errors(result: AuditResult) -> pd.DataFrame:
-    """Per-epoch 3-D error against the reference for every computed hypothesis (the table behind
-    the position figures: a whole-day average would hide the periodic term)."""
+    """Per-epoch positions and errors for every computed hypothesis (the table behind the position
+    figures: a whole-day average would hide the periodic term).
+
+    Columns, per hypothesis ``h`` (``-`` written ``_``): ``error_3d_m_h`` (m, against the
+    reference), ``latitude_h_deg``, ``longitude_h_deg``, ``height_h_m`` (WGS-84, degrees and m
+    above the ellipsoid) and ``east_error_h_m``, ``north_error_h_m``, ``up_error_h_m`` (m, in the
+    reference's local frame); errors only when there is a reference (``result.reference``:
+    "given", or "header", the observation file's approximate position).  Times GPST.
+    """
     out = pd.DataFrame({"time": result.positions["applied"]["time"].to_numpy()})
-    if result.reference_ecef_m is None:
-        return out
+    ref = result.reference_ecef_m
+    if ref is not None:
+        for name, pos in result.positions.items():
+            out[f"error_3d_m_{name.replace('-', '_')}"] = position_errors_3d_m(pos, ref)
     for name, pos in result.positions.items():
-        out[f"error_3d_m_{name.replace('-', '_')}"] = position_errors_3d_m(pos, result.reference_ecef_m)
+        h = name.replace("-", "_")
+        xyz = pos[["x_m", "y_m", "z_m"]].to_numpy(dtype=float)
+        lat, lon, height = ecef_to_geodetic(xyz)
+        out[f"latitude_{h}_deg"], out[f"longitude_{h}_deg"] = np.degrees(lat), np.degrees(lon)
+        out[f"height_{h}_m"] = height
+        if ref is not None:
+            enu = enu_errors(xyz, ref)
+            for k, axis in enumerate(("east", "north", "up")):
+                out[f"{axis}_error_{h}_m"] = enu[:, k]
     return out

@@ -88,17 +88,16 @@ def open_log(path: str | Path, ledger=None) -> Opened:
         # zip raises BadZipFile, RuntimeError (encrypted), NotImplementedError (method).
         reason = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
         raise FileFormatError(f"compressed file is damaged or truncated ({reason})", path) from None
-    inner = _strip_compression_suffix(path.name)
-    if _HATANAKA_NAME.search(inner) or raw[:20].lstrip().startswith(b"1.0") and b"COMPACT RINEX" in raw[:200] \
-            or b"CRINEX VERS" in raw[:100]:
-        if b"CRINEX VERS" in raw[:200]:
-            opened = _expand_hatanaka(raw, path)
-            for message, line in opened.notes:
-                if ledger is not None:
-                    ledger.warn(message, path, line)
-                else:
-                    warnings.warn(f"{path}{'' if line is None else f':{line}'}: {message}", stacklevel=2)
-            return opened
+    # Compact RINEX is recognised by its first header line (label "CRINEX VERS   / TYPE",
+    # Hatanaka's format 1.0/3.0), whatever the file is called.
+    if b"CRINEX VERS" in raw[:200]:
+        opened = _expand_hatanaka(raw, path)
+        for message, line in opened.notes:
+            if ledger is not None:
+                ledger.warn(message, path, line)
+            else:
+                warnings.warn(f"{path}{'' if line is None else f':{line}'}: {message}", stacklevel=2)
+        return opened
     return Opened(raw)
 
 
@@ -112,7 +111,7 @@ def _expand_hatanaka(raw: bytes, path: Path) -> Opened:
         warnings.simplefilter("always")
         try:
             data = hatanaka.decompress(raw)
-        except Exception as exc:  # the package raises several kinds
+        except Exception as exc:  # noqa: BLE001 -- the package raises several kinds
             first = str(exc).strip().splitlines()
             reason = first[0] if first else type(exc).__name__
             m = _DECOMPRESSOR_LINE.search(reason)

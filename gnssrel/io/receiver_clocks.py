@@ -48,7 +48,7 @@ import pandas as pd
 
 from gnssrel.accounting import NO_SYSTEM, Ledger
 from gnssrel.errors import FileFormatError, TimeScaleError
-from gnssrel.io.opening import read_text
+from gnssrel.io.csv_rows import read_csv_cells
 from gnssrel.io.precise_fields import far_off
 from gnssrel.timescales import to_gpst
 
@@ -77,26 +77,7 @@ def read_receiver_clocks(path: str | Path) -> pd.DataFrame:
     reader's :class:`gnssrel.accounting.Ledger` as a dict.
     """
     ledger = Ledger()
-    text = read_text(path, ledger)
-    lines = text.splitlines()
-    body = [(n, s) for n, s in enumerate(lines, start=1) if s.strip() and not s.lstrip().startswith("#")]
-    if not body:
-        raise FileFormatError("receiver clock table is empty", path)
-    header_line, header = body[0]
-    columns = [c.strip() for c in header.split(",")]
-    missing = [c for c in REQUIRED_COLUMNS if c not in columns]
-    if missing:
-        raise FileFormatError(f"receiver clock table lacks column(s) {', '.join(missing)}; the header "
-                              f"must name {', '.join(REQUIRED_COLUMNS)} (and optionally flags)",
-                              path, header_line, header)
-    rows = body[1:]
-    if not rows:
-        raise FileFormatError("receiver clock table has a header but no rows", path, header_line, header)
-    cells = [[c.strip() for c in s.split(",")] for _, s in rows]
-    df = pd.DataFrame({"line": np.array([n for n, _ in rows], dtype=np.int64),
-                       "n_cells": np.array([len(c) for c in cells], dtype=np.int64)})
-    for k, name in enumerate(columns):
-        df[name] = [c[k] if k < len(c) else "" for c in cells]
+    df, columns = read_csv_cells(path, ledger, "receiver clock table", REQUIRED_COLUMNS, "flags")
     sv_ok = df["sv"].str.match(_SV)
     df["system"] = np.where(sv_ok, df["sv"].str[:1], NO_SYSTEM)
     for system, n in df["system"].value_counts().items():
@@ -154,7 +135,7 @@ def read_receiver_clocks(path: str | Path) -> pd.DataFrame:
     if not ok.any():
         first = int(df["line"].iloc[0])
         raise FileFormatError(f"no usable row in the receiver clock table ({reason.iloc[0]})",
-                              path, first, lines[first - 1])
+                              path, first, df["line_text"].iloc[0])
     out = pd.DataFrame({"time": t_gpst[ok], "sv": df["sv"].to_numpy()[ok], "clock_correction_s": value[ok],
                         "flags": df["flags"].to_numpy()[ok] if "flags" in df else "",
                         "time_scale": scales.to_numpy()[ok], "line": df["line"].to_numpy()[ok]})

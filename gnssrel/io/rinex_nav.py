@@ -20,15 +20,17 @@ from gnssrel import timescales as ts
 from gnssrel.accounting import Ledger
 from gnssrel.errors import FileFormatError, GnssrelInputError
 from gnssrel.io import rinex_nav_checks as checks
+from gnssrel.io import rinex_nav_header4 as header4
 from gnssrel.io import rinex_nav_layout as lay
+from gnssrel.io import rinex_nav_messages as msgs
 from gnssrel.io import rinex_nav_records as rec
 from gnssrel.io.opening import read_text
 from gnssrel.io.rinex_nav_tables import build_table, sorted_table
 
 log = logging.getLogger(__name__)
 
-TABLE_SYSTEMS = "GECJR"
-KNOWN_SYSTEMS = "GECJRSI"
+TABLE_SYSTEMS = "GECJRIS"
+KNOWN_SYSTEMS = "GECJRIS"
 ITEM = rec.ITEM
 FAR_FROM_BULK = "refused: epoch far from the file's other records"
 DUPLICATE = "duplicate of another file's record"
@@ -54,7 +56,7 @@ class NavigationData:
 
     @property
     def systems(self) -> str:
-        """Letters of the systems with at least one record, in gnssrel order (GECJR)."""
+        """Letters of the systems with at least one record, in gnssrel order (GECJRIS)."""
         return "".join(s for s in TABLE_SYSTEMS if s in self.ephemerides and len(self.ephemerides[s]))
 
     @classmethod
@@ -83,7 +85,8 @@ class NavigationData:
                 continue
             frame = pd.concat(parts, ignore_index=True)
             compare = [c for c in frame.columns if c != "line"]
-            frame = frame.drop_duplicates(subset=compare, keep="first")
+            # records of equal sv and toc from several files: one order whatever the order of the files
+            frame = _content_order(frame, compare).drop_duplicates(subset=compare, keep="first")
             duplicates = sum(len(p) for p in parts) - len(frame)
             duplicates = min(duplicates, ledger.count(ITEM, letter, "used"))
             if duplicates > 0:
@@ -91,6 +94,16 @@ class NavigationData:
             tables[letter] = sorted_table(frame)
         header = _merged_header(items, ledger)
         return cls(tables, header, items[0].path, ledger)
+
+
+def _content_order(frame: pd.DataFrame, columns: list[str]) -> pd.DataFrame:
+    """The rows sorted by their content (every column of ``columns``), so that a merge does not
+    depend on the order of its files; object columns of mixed types are ordered by their text."""
+    try:
+        return frame.sort_values(columns, kind="stable")
+    except TypeError:
+        text = frame[columns].astype(str).agg("\x1f".join, axis=1).to_numpy()
+        return frame.iloc[np.argsort(text, kind="stable")]
 
 
 def _merged_header(items, ledger):
@@ -133,7 +146,7 @@ def read_navigation(path, systems=None) -> NavigationData:
     ----------
     path : the file; any compression :func:`gnssrel.io.opening.read_text` handles.
     systems : letters to keep, a string such as ``"GE"`` or an iterable of letters
-        (G GPS, E Galileo, C BeiDou, J QZSS, R GLONASS); ``None`` keeps all.
+        (G GPS, E Galileo, C BeiDou, J QZSS, R GLONASS, I NavIC, S SBAS); ``None`` keeps all.
 
     Returns
     -------
@@ -158,7 +171,24 @@ def read_navigation(path, systems=None) -> NavigationData:
       ``bgd_e5a_e1_s``, ``bgd_e5b_e1_s``, ``clock_frequency_pair`` (``E1,E5a`` /
       ``E1,E5b``); C: ``tgd1_b1_b3_s``, ``tgd2_b2_b3_s``, ``aodc``, ``is_geo``.
       GLONASS (R): ``toc`` is t_b in GPST, ``clock_bias_s`` the file's -tau_n,
-      ``relative_frequency_bias`` (+gamma_n, also given as ``clock_drift_s_per_s``;
+      RINEX 4 CNAV-type records (``nav_type`` ``CNAV``, ``CNV2`` for G/J, ``CNV1``,
+      ``CNV2`` for C; layouts in :mod:`gnssrel.io.rinex_nav_messages`) share the Keplerian
+      columns (``sqrt_a_sqrt_m`` = sqrt(A_ref + Delta A), ``omega_dot_rad_per_s`` the full
+      rate) and add ``a_dot_m_per_s``, ``delta_n_dot_rad_per_s2``, ``prediction_sow_s``
+      (t_op); their toe is the epoch for G/J (t_oe = t_oc) and ``week`` the week of toc;
+      G/J: ``urai_ed``, ``urai_ned0``-``urai_ned2``, ``tgd_s``, ``isc_l1ca_s``, ``isc_l2c_s``,
+      ``isc_l5i5_s``, ``isc_l5q5_s`` (CNV2 also ``isc_l1cd_s``, ``isc_l1cp_s``),
+      ``transmission_week``; C: ``satellite_type`` (1 GEO, 2 IGSO, 3 MEO; ``is_geo`` only
+      where the orbit is geosynchronous too), ``sisai_oe``, ``sisai_ocb``, ``sisai_oc1``,
+      ``sisai_oc2``, ``sismai``, ``integrity_flags``, ``iodc``, ``iode``, ``isc_b1cd_s``
+      (CNV1) or ``isc_b2ad_s`` (CNV2), ``tgd_b1cp_s``, ``tgd_b2ap_s``.  Columns a record
+      type lacks are NaN in the rows of the other types.
+      NavIC (I, ``LNAV``): the Keplerian columns, ``iode`` (IODEC), ``week`` (GPS-aligned),
+      ``accuracy_m``, ``tgd_s``.  SBAS (S, ``SBAS``): ``toc`` = t_0 (GPST),
+      ``clock_bias_s`` = a_Gf0, ``clock_drift_s_per_s`` = a_Gf1, ``x_m`` ... ``az_m_per_s2``
+      (WGS-84, converted from km), ``accuracy_code`` (URA), ``iodn``, ``health`` (the RINEX
+      bit mask; 0 healthy), ``transmission_sow_s``.
+      GLONASS ``relative_frequency_bias`` (+gamma_n, also given as ``clock_drift_s_per_s``;
       drift rate 0), ``message_frame_time_s``, ``x_m`` ... ``az_m_per_s2``
       (PZ-90, converted from km), ``frequency_channel``, ``age_days`` and, from
       RINEX 3.05 on, ``status_flags``, ``group_delay_l1_l2_s``, ``urai``,
@@ -169,8 +199,19 @@ def read_navigation(path, systems=None) -> NavigationData:
       ``leap_seconds`` (int or None), ``ionosphere`` ({"GPSA": [4], "GPSB": [4],
       "GAL": [3], "BDSA": ...}; from RINEX 4 ION records when the header has none),
       ``time_corrections`` ({"GPUT": {"a0_s", "a1_s_per_s", "reference_sow_s",
-      "reference_week"}, ...}), ``skipped`` ({"S SBAS": 2168, "EPH G CNAV": 3,
-      "STO": 2, ...}: records this reader does not tabulate), ``n_records``,
+      "reference_week"}, ...}; RINEX 4: from the first STO record of each code, with
+      ``a2_s_per_s2``, ``source`` "STO record" and ``line``), ``skipped`` (records of a
+      kind this reader does not tabulate: since issue 14 none of RINEX 2-4.00; kept for
+      a later version's message types), ``n_records``,
+      RINEX 4 only: ``ionosphere_records`` (every ION record: ``line``, ``marker``,
+      ``system``, ``message``, ``model`` klobuchar / nequick_g / bdgim, ``epoch``,
+      ``values``), ``ionosphere_models`` ({"G LNAV": the first record of that system and
+      message type, ...; "C CNVX" is BDGIM with its 9 coefficients, not used yet}),
+      ``system_time_offsets`` (every STO record: ``sv``, ``message``, ``code``,
+      ``sbas_id``, ``utc_id``, ``epoch``, ``transmission_sow_s``, ``a0_s``, ``a1_s_per_s``,
+      ``a2_s_per_s2``, ``line``), ``earth_orientation`` (every EOP record: pole x/y and
+      rates in arcsec and per day, ``ut1_utc_s`` and rates, ``epoch``, ``message``;
+      :mod:`gnssrel.io.rinex_nav_header4`),
       ``ionosphere_sources`` / ``time_correction_sources`` / ``leap_seconds_source``
       (the file each value came from).
     * ``path``: the file.
@@ -179,9 +220,9 @@ def read_navigation(path, systems=None) -> NavigationData:
       the records left out with their reason (``damaged``, ``refused: impossible
       date``, ``refused: <field> out of range``, ``refused: week disagrees with the
       epoch``, ``refused: epoch far from the file's other records``, ``not read:
-      SBAS``, ``not read: NavIC LNAV``, ``not read: CNAV``, ``not read: STO`` (system
-      ``-`` for STO/EOP and unreadable markers) ...), with a warning naming file and
-      line for every damaged or refused record.
+      <type>`` for a message type RINEX 4.00 does not define; system ``-`` for STO, EOP,
+      ION records and unreadable markers), with a warning naming file and line for
+      every damaged or refused record.
 
     Time rules: BeiDou epochs are BDT (GPST = BDT + 14 s), BDT weeks count from
     2006-01-01; GLONASS t_b is UTC (header LEAP SECONDS, else the built-in table);
@@ -206,19 +247,12 @@ def read_navigation(path, systems=None) -> NavigationData:
         lines.pop()
     body = rec.cut_records(lines, first_body, header, wanted)
     if int(header["version"]) == 4:
-        for system, outcome, line, message in lay.ionosphere_from_records(lines, body.ion, header, path):
-            body.counts[(system, "read")] += 1
-            body.counts[(system, outcome)] += 1
-            if message:
-                body.warnings.append((message, line))
+        _header_records(lines, body, header, path)
     header["skipped"] = body.skipped
     tables = {}
     for letter in TABLE_SYSTEMS:
         if body.groups.get(letter):
-            tables[letter], drops = build_table(letter, body.groups[letter], lines, header)
-            for reason, line, message in drops:
-                body.counts[(letter, reason)] += 1
-                body.warnings.append((message, line))
+            tables[letter] = _system_table(letter, body, lines, header)
     _refuse_far_records(tables, body)
     _check_leap_seconds(header, tables, ledger, path)
     for (system, outcome), n in sorted(body.counts.items()):
@@ -236,6 +270,36 @@ def read_navigation(path, systems=None) -> NavigationData:
     header["time_correction_sources"] = {code: name for code in header["time_corrections"]}
     header["leap_seconds_source"] = name if header["leap_seconds"] is not None else None
     return NavigationData(tables, header, path, ledger)
+
+
+def _header_records(lines, body, header, path):
+    """RINEX 4 ION, STO and EOP records into the header, each counted under system ``-``."""
+    outcomes = lay.ionosphere_from_records(lines, body.ion, header, path)
+    outcomes += header4.offsets_from_records(lines, body.sto, header, path, lay._number)
+    outcomes += header4.orientation_from_records(lines, body.eop, header, path, lay._number)
+    for system, outcome, line, message in outcomes:
+        body.counts[(system, "read")] += 1
+        body.counts[(system, outcome)] += 1
+        if message:
+            body.warnings.append((message, line))
+
+
+def _system_table(letter, body, lines, header):
+    """One system's table from its records of every message type (one layout each)."""
+    by_type: dict = {}
+    for record in body.groups[letter]:
+        message = record[2] if (letter, record[2]) in msgs.MESSAGE_FIELDS else None
+        by_type.setdefault(message, []).append(record)
+    parts = []
+    for message, records in by_type.items():
+        table, drops = build_table(letter, records, lines, header, message)
+        parts.append(table)
+        for reason, line, text in drops:
+            body.counts[(letter, reason)] += 1
+            body.warnings.append((text, line))
+    if len(parts) == 1:
+        return parts[0]
+    return sorted_table(pd.concat([p for p in parts if len(p)] or parts[:1], ignore_index=True))
 
 
 def _wanted_systems(systems) -> str:

@@ -27,6 +27,14 @@ Sources (all "from memory" unless a section is named):
   components within 5 km/s; luni-solar accelerations (field 5 bits x 2^-30 km/s^2,
   GLONASS ICD 4.4) within 1e-3 m/s^2; frequency channel -7 ... +13 (ICD 3.3.1.1,
   +7 ... +13 were planned, never used).
+* CNAV-type rates (issue 14): A dot within 10 m/s (IS-GPS-200 Table 30-I: 25 bits x 2^-21 m/s,
+  +-8 m/s), Delta n0 dot within 1e-9 rad/s^2 (23 bits x 2^-57 semicircles/s^2, +-9e-11);
+  BRD400DLR 2023-071 reaches 0.21 m/s and 7e-13 rad/s^2 (QZSS).
+* NavIC: geosynchronous, sqrt(A) as QZSS (BRD400DLR: 6493.3-6493.5).
+* SBAS GEO message (RTCA DO-229 message type 9, field ranges from memory): X, Y within
+  +-4.3e7 m, Z +-6.7e6 m (bounds 5e7), X/Y dot +-41 m/s and Z dot +-524 m/s (bound 600),
+  accelerations +-0.0064 / +-0.032 m/s^2 (bound 0.05), a_Gf0 +-9.5e-7 s, a_Gf1 +-1.2e-10;
+  BRD400DLR and MOJN reach 4.22e7 m, 106 m/s, 0.032 m/s^2, 9.5e-7 s.
 * every other filled field: below 1e10 in magnitude, which keeps the marker
   0.999999999999E+09 the format documents for "unknown" (RINEX 3.05 Table A6 note
   on the transmission time) and refuses 9.99E+99.
@@ -52,6 +60,8 @@ _KEPLER = {
     "inclination_rad": (0.0, 1.3),
     "toe_sow_s": (0.0, 604800.0),
     "eccentricity": (0.0, 0.15),
+    "a_dot_m_per_s": (-10.0, 10.0),
+    "delta_n_dot_rad_per_s2": (-1e-9, 1e-9),
 }
 
 RANGES = {
@@ -60,6 +70,13 @@ RANGES = {
     "E": {**_KEPLER, "sqrt_a_sqrt_m": (5150.0, 5700.0), "eccentricity": (0.0, 0.25),
           "week": (0, 9999)},
     "C": {**_KEPLER, "sqrt_a_sqrt_m": (5000.0, 6700.0), "week": (0, 9999)},
+    "I": {**_KEPLER, "sqrt_a_sqrt_m": (6200.0, 6700.0), "week": (0, 9999)},
+    "S": {
+        "clock_bias_s": (-1e-3, 1e-3), "clock_drift_s_per_s": (-1e-7, 1e-7),
+        "x_m": (-5e7, 5e7), "y_m": (-5e7, 5e7), "z_m": (-5e7, 5e7),
+        "vx_m_per_s": (-600.0, 600.0), "vy_m_per_s": (-600.0, 600.0), "vz_m_per_s": (-600.0, 600.0),
+        "ax_m_per_s2": (-0.05, 0.05), "ay_m_per_s2": (-0.05, 0.05), "az_m_per_s2": (-0.05, 0.05),
+    },
     "R": {
         "clock_bias_s": (-0.1, 0.1),
         "relative_frequency_bias": (-1e-7, 1e-7),

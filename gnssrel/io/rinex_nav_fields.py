@@ -31,12 +31,12 @@ def char_matrix(records, lines, n_lines, width):
     byte (already replaced by U+FFFD when the file was decoded) becomes ``?``, which
     no field accepts.
     """
-    pad = " " * width
     rows = []
     for start, count, *_ in records:
-        rows.extend(f"{ln:<{width}.{width}}" for ln in lines[start:start + count])
-        rows.extend(pad for _ in range(n_lines - count))
-    buf = "".join(rows).encode("ascii", "replace")
+        rows += lines[start:start + count]
+        if count < n_lines:
+            rows += [""] * (n_lines - count)
+    buf = "".join([ln.ljust(width)[:width] for ln in rows]).encode("ascii", "replace")
     return np.frombuffer(buf, dtype=np.uint8).reshape(len(records), n_lines * width)
 
 

@@ -16,6 +16,7 @@ import math
 import re
 
 from gnssrel.errors import FileFormatError
+from gnssrel.io import rinex_nav_messages as msgs
 
 FIELD_WIDTH = 19
 LINE_WIDTH = 80
@@ -79,6 +80,9 @@ RECORD_FIELDS = {
         ("z_m", "vz_m_per_s", "az_m_per_s2", "age_days"),
         ("status_flags", "group_delay_l1_l2_s", "urai", "health_flags"),
     ),
+    # NavIC LNAV and SBAS (RINEX 3.04 / 4.00; layouts in rinex_nav_messages).
+    "I": msgs.NAVIC_FIELDS,
+    "S": msgs.SBAS_FIELDS,
 }
 
 # Lines a record of each system may have (the epoch line included).
@@ -100,14 +104,30 @@ KILOMETRE_FIELDS = frozenset(("x_m", "y_m", "z_m", "vx_m_per_s", "vy_m_per_s", "
 
 # Fields that must hold an integer (refused when blank: without them the record is unusable).
 INTEGER_FIELDS = {"G": ("week",), "J": ("week",), "E": ("week", "data_sources"),
-                  "C": ("week",), "R": ("frequency_channel",)}
+                  "C": ("week",), "R": ("frequency_channel",), "I": ("week",)}
+
+
+def layout_of(letter, message=None):
+    """(fields by line, integer fields) of a record of ``letter`` and RINEX 4 message type
+    ``message`` (None: the system's legacy record, also in RINEX 2/3)."""
+    key = (letter, message)
+    if key in msgs.MESSAGE_FIELDS:
+        return msgs.MESSAGE_FIELDS[key], ()
+    return RECORD_FIELDS[letter], INTEGER_FIELDS.get(letter, ())
+
+
+def lines_of(letter, message, allowed):
+    """Numbers of lines a RINEX 4 record of this letter and message type may have."""
+    fields = msgs.MESSAGE_FIELDS.get((letter, message))
+    return (len(fields),) if fields else allowed[letter]
 
 # RINEX 2 file type letter (column 21 of the first line) -> system letter.
 RINEX2_FILE_SYSTEM = {"N": "G", "G": "R", "E": "E", "H": "S", "J": "J"}
 
 # RINEX 4.00 EPH message types read into tables (others are counted in header["skipped"]).
 RINEX4_TABLE_TYPES = {("G", "LNAV"), ("J", "LNAV"), ("E", "INAV"), ("E", "FNAV"),
-                      ("C", "D1"), ("C", "D2"), ("R", "FDMA")}
+                      ("C", "D1"), ("C", "D2"), ("R", "FDMA"), ("I", "LNAV"), ("S", "SBAS")} \
+    | set(msgs.MESSAGE_FIELDS)
 
 # Klobuchar / NeQuick-G coefficient names of RINEX 4 ION records (RINEX 4.00 Tables A32-A34)
 # mapped to the RINEX 3 header codes.
@@ -238,28 +258,34 @@ def _header_line(header, label, line, i, path, file_system, check_leap_seconds, 
         header["time_corrections"].setdefault("GLUT", {"a0_s": value})
 
 
-# RINEX 4.00 ION records (section 5.3, Tables A32-A34; from memory): the message type
-# says which model the numbers belong to.  Klobuchar: GPS/QZSS LNAV and CNAV (CNVX),
-# BeiDou D1/D2 (D1D2), NavIC LNAV; NeQuick-G: Galileo I/NAV-F/NAV (IFNV).  BeiDou CNVX
-# is BDGIM (nine coefficients), which has no header key here: counted as not read.
+# RINEX 4.00 ION records (section 5.5, from memory): the message type says which model the
+# numbers belong to.  Klobuchar: GPS/QZSS LNAV and CNAV (CNVX), BeiDou D1/D2 (D1D2), NavIC
+# LNAV; NeQuick-G: Galileo I/NAV-F/NAV (IFNV); BDGIM: BeiDou CNVX (nine coefficients alpha1-9,
+# BDS-SIS-ICD-B1C 1.0, 7.x, from memory), kept in the header, not used yet.
 ION_MODELS = {("G", "LNAV"): "klobuchar", ("G", "CNVX"): "klobuchar",
               ("J", "LNAV"): "klobuchar", ("J", "CNVX"): "klobuchar",
               ("C", "D1D2"): "klobuchar", ("I", "LNAV"): "klobuchar",
-              ("E", "IFNV"): "nequick_g"}
+              ("E", "IFNV"): "nequick_g", ("C", "CNVX"): "bdgim"}
 
 
 def ionosphere_from_records(lines, records, header, path):
-    """Fill header["ionosphere"] from RINEX 4 ION records (first record of each kind).
+    """Read RINEX 4 ION records into the header.
 
     ``records``: [(marker line index, n lines, system letter, message type)].
-    RINEX 4.00 Tables A32-A34: the epoch line (4X, epoch, 3D19.12) then 4X,4D19.12 lines;
-    Klobuchar alpha0-3, beta0-3, region; NeQuick-G ai0-ai2, disturbance flags.
+    RINEX 4.00 5.5: the epoch line (4X, epoch, 3D19.12) then 4X,4D19.12 lines; Klobuchar
+    alpha0-3, beta0-3, region; NeQuick-G ai0-ai2, disturbance flags; BDGIM alpha1-9.
+    Every readable record is kept in ``header["ionosphere_records"]`` (``line``, ``marker``,
+    ``system``, ``message``, ``model``, ``epoch``, ``values``); the first of each (system,
+    message type) in ``header["ionosphere_models"]["<letter> <type>"]``, and the first
+    Klobuchar/NeQuick-G of a system fills ``header["ionosphere"]`` (GPSA/GPSB, QZSA/QZSB,
+    BDSA/BDSB, IRNA/IRNB, GAL) where the header gave none.
     Returns [(system, outcome, line, warning or None)] for the accounting: ``used``
-    (the first record of its kind, which fills the header), ``not read: ION <type>``
-    (a model without a header key, or a later record of a kind already read),
-    ``damaged`` (garbled number, too few values).
+    (kept), ``not read: ION <letter> <type>`` (a type RINEX 4.00 does not define),
+    ``not read: empty ION record`` (a marker without lines), ``damaged`` (garbled number,
+    too few values).
     """
     found = header.setdefault("ionosphere_records", [])
+    models = header.setdefault("ionosphere_models", {})
     outcomes = []
     for start, count, letter, msg in records:
         model = ION_MODELS.get((letter, msg))
@@ -270,31 +296,26 @@ def ionosphere_from_records(lines, records, header, path):
         if count <= 1:
             outcomes.append((system, "not read: empty ION record", start + 1, None))
             continue
-        values = []
         try:
-            for k in range(1, count):
-                line = lines[start + k]
-                for a in (FIELD_STARTS[3][0] if k == 1 else FIELD_STARTS[3][1]):
-                    values.append(_number(line[a:a + FIELD_WIDTH], path, start + k + 1, line,
-                                          f"ION record (columns {a + 1}-{a + FIELD_WIDTH})"))
+            values = msgs.values_of(lines, start, count, lambda text, i, line, what: _number(
+                text, path, i + 1, line, f"ION record ({what})"))
         except FileFormatError as err:
             outcomes.append((system, "damaged", start + 1, err.message))
             continue
-        codes = RINEX4_ION_CODES.get(letter, ())
-        need = 8 if model == "klobuchar" else 3
-        if len(values) < need or None in values[:need] or \
-                not all(math.isfinite(v) and abs(v) < 1e10 for v in values[:need]):
+        need = msgs.ION_COEFFICIENTS[model]
+        if not msgs.finite(values, need):
             outcomes.append((system, "damaged", start + 1,
                              f"ION {letter} {msg} record: {need} finite coefficients expected"))
             continue
-        found.append({"line": start + 1, "marker": lines[start].strip(), "values": values})
-        if codes and codes[0] in header["ionosphere"]:
-            outcomes.append((system, "not read: later ION record of the same kind", start + 1, None))
-            continue
-        if model == "klobuchar":
+        entry = {"line": start + 1, "marker": lines[start].strip(), "system": letter, "message": msg,
+                 "model": model, "epoch": msgs.epoch_of(lines[start + 1]), "values": values}
+        found.append(entry)
+        models.setdefault(f"{letter} {msg}", entry)
+        codes = RINEX4_ION_CODES.get(letter, ())
+        if model == "klobuchar" and codes[0] not in header["ionosphere"]:
             header["ionosphere"][codes[0]] = values[0:4]
             header["ionosphere"][codes[1]] = values[4:8]
-        else:
+        elif model == "nequick_g" and codes[0] not in header["ionosphere"]:
             header["ionosphere"][codes[0]] = values[0:3]
         outcomes.append((system, "used", start + 1, None))
     return outcomes

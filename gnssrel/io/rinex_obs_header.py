@@ -20,13 +20,13 @@ LABEL = slice(60, 80)
 
 # RINEX 3.05 table A2 "TIME OF FIRST OBS": the scale names a file may use -> gnssrel's names.
 # IRNSS time is aligned to GPST (IRNSS SIS ICD 1.1, 4.2.1; from memory).
-FILE_TIME_SCALE = {"GPS": "GPST", "GAL": "GST", "GLO": "GLONASST", "BDT": "BDT",
+# GLO: RINEX 2.11 table A1 and 8.1.1 say "GLO (=UTC time system)": the time tags of GLONASS
+# observations are in UTC, not in GLONASS system time (UTC(SU) + 3 h); the GLONASS extension
+# of RINEX 2 (Gurtner 1997, 1.1) gives the reason.  RINEX 3.x table A2 keeps the same words
+# "GLO (=UTC time system)" (from memory), so the word GLO means UTC in every version.
+FILE_TIME_SCALE = {"GPS": "GPST", "GAL": "GST", "GLO": "UTC", "BDT": "BDT",
                    "QZS": "QZSST", "IRN": "GPST"}
-
-# RINEX 2.11 table A1 "TIME OF FIRST OBS": "GLO (=UTC time system)", and 8.1.1: the time tags
-# of GLONASS observations are in UTC, not in GLONASS system time (UTC(SU) + 3 h).  So in a
-# RINEX 2 observation file the word GLO means UTC (published).
-FILE_TIME_SCALE_V2 = dict(FILE_TIME_SCALE, GLO="UTC")
+FILE_TIME_SCALE_V2 = dict(FILE_TIME_SCALE)
 
 # RINEX 3.05 5.2.3: a file of one system writes its times in that system's scale;
 # RINEX 2.11 table A1: GPS or mixed files default to GPS, pure GLONASS files to GLO.

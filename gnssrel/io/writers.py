@@ -18,6 +18,7 @@ from pathlib import Path
 import numpy as np
 
 from gnssrel.errors import GnssrelInputError
+from gnssrel.io.metadata import CONVENTIONS, TIME_ENCODING, column_attributes
 
 TABLE_SUFFIXES = (".csv", ".parquet", ".nc")
 
@@ -62,7 +63,12 @@ def check_output_suffix(path: str | Path, allowed=TABLE_SUFFIXES) -> Path:
 
 
 def write_table(table, path: str | Path) -> Path:
-    """Write a pandas DataFrame (or xarray Dataset) as CSV, Parquet or NetCDF by suffix."""
+    """Write a pandas DataFrame (or xarray Dataset) as CSV, Parquet or NetCDF by suffix.
+
+    NetCDF variables and Parquet columns carry CF attributes from their names (units,
+    long_name, standard_name where one exists; times: "GPS time", time_scale GPST;
+    :mod:`gnssrel.io.metadata`): as variable attributes, and as Parquet field metadata.
+    """
     import pandas as pd
 
     path = check_output_suffix(path)
@@ -71,14 +77,51 @@ def write_table(table, path: str | Path) -> Path:
         if suffix == ".nc":
             ds = table if hasattr(table, "to_netcdf") and not isinstance(table, pd.DataFrame) \
                 else table.to_xarray()
-            _netcdf_safe(ds).to_netcdf(tmp)
+            _with_cf_attributes(_netcdf_safe(ds)).to_netcdf(tmp)
         else:
             df = table if isinstance(table, pd.DataFrame) else table.to_dataframe().reset_index()
             if suffix == ".csv":
                 df.to_csv(tmp, index=False, float_format="%.12g")
             else:
-                df.to_parquet(tmp, index=False)
+                _write_parquet(df, tmp)
     return path
+
+
+def _is_time(values) -> bool:
+    return np.issubdtype(getattr(values, "dtype", np.dtype(object)), np.datetime64)
+
+
+def _with_cf_attributes(ds):
+    """``ds`` with CF attributes on every variable and coordinate (existing attributes win) and
+    GPST times encoded as integer nanoseconds since the GPS epoch."""
+    ds.attrs.setdefault("Conventions", CONVENTIONS)
+    ds.attrs.setdefault("time_scale", "GPST")
+    for name in ds.variables:
+        var = ds[name]
+        is_time = _is_time(var)
+        for key, value in column_attributes(name, is_time).items():
+            var.attrs.setdefault(key, value)
+        if is_time:
+            var.attrs.pop("units", None)
+            var.attrs.pop("calendar", None)
+            var.encoding.update(TIME_ENCODING)
+        ds[name].attrs = var.attrs
+    return ds
+
+
+def _write_parquet(df, path) -> None:
+    """Parquet with each column's CF attributes as field metadata and the time scale in the schema's."""
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    table = pa.Table.from_pandas(df, preserve_index=False)
+    fields = []
+    for f in table.schema:
+        attrs = column_attributes(f.name, pa.types.is_timestamp(f.type))
+        fields.append(f.with_metadata({k.encode(): str(v).encode() for k, v in attrs.items()}))
+    meta = dict(table.schema.metadata or {})
+    meta.update({b"Conventions": CONVENTIONS.encode(), b"time_scale": b"GPST"})
+    pq.write_table(table.cast(pa.schema(fields, metadata=meta)), path)
 
 
 def _netcdf_attr(value):

@@ -26,7 +26,8 @@ DESCRIPTION = (
     "summary.json), campaign.parquet and campaign.csv (one row per station-day), summary.json, report/ (HTML and figures). A rerun "
     f"skips the tasks already done with unchanged inputs and options. Exit status: 0 every task ok, "
     f"{EXIT_SOME_FAILED} some failed (each listed with its reason), 2 nothing could run or bad input, "
-    "1 internal error.")
+    f"1 internal error; with --fail-on-fault, {common.EXIT_FAULT_FOUND} when a receiver's fixes follow a wrong "
+    "hypothesis (wins over 3).")
 
 log = logging.getLogger(__name__)
 
@@ -50,6 +51,7 @@ def add_arguments(parser) -> None:
     parser.add_argument("--elevation-mask", type=float, default=10.0, metavar="DEG",
                         help="elevation mask in degrees (default 10)")
     common.add_rule(parser)
+    common.add_fail_on_fault(parser)
     parser.add_argument("--resume", action=argparse.BooleanOptionalAction, default=True,
                         help="skip the station-days finished by an earlier run with the same inputs and "
                              "options (default: on)")
@@ -115,6 +117,10 @@ def run(args) -> dict | None:
         raise NoDataError(f"no station-day could be audited ({reasons})")
     if summary["n_failed"] or any(day["status"] != "ok" for day in summary["network"]):
         args.exit_status = EXIT_SOME_FAILED
+    from gnssrel.pipeline.verdicts import firmware_at_fault  # deferred: as above
+
+    common.flag_faults(args, [f"{s['station']} {s['date']}" for s in summaries
+                              if s.get("kind") != "network-day" and firmware_at_fault(s, s.get("receiver_clocks"))])
     return summary
 
 

@@ -34,9 +34,12 @@ def add_arguments(parser) -> None:
     parser.add_argument("--precise", metavar="SP3|CLK", nargs="+",
                         help="precise clocks: SP3 files (e.g. the day before and the day) or RINEX clock files")
     parser.add_argument("--receiver-clocks", metavar="FILE.csv",
-                        help="a receiver's own satellite clock corrections (see gnssrel.io.receiver_clocks)")
+                        help=f"a receiver's own satellite clock corrections: {common.RECEIVER_CLOCKS_FORMAT}")
     common.add_systems(parser)
     common.add_time_window(parser, None, "keep only precise epochs on multiples of this interval (e.g. 300)")
+    parser.add_argument("--antex", metavar="ATX",
+                        help="with SP3 files: ANTEX file whose satellite phase-centre offsets move the precise "
+                             "orbits to the broadcast phase centre for the signal-in-space range error")
     parser.add_argument("--datum", choices=("robust", "epoch-median"), default="robust",
                         help="per-epoch datum: alternating median/mean (default) or the plain median")
     common.add_include_unhealthy(parser)
@@ -52,9 +55,12 @@ def run(args) -> dict:
     from gnssrel.pipeline import accounting
     from gnssrel.pipeline.inputs import read_navigation_files, read_precise_clocks, receiver_rows_in_window
     from gnssrel.pipeline.stages import compare_clocks
+    from gnssrel.pipeline.window import drop_excluded
 
     if not args.precise and not args.receiver_clocks:
         raise GnssrelInputError("give --precise SP3|CLK files and/or --receiver-clocks FILE.csv")
+    if getattr(args, "antex", None) and not args.precise:
+        raise GnssrelInputError("--antex moves precise orbits to the antenna phase centre: give --precise SP3 files")
     common.check_outputs(args)
     letters = common.parse_systems(args.systems)
     systems = list(letters) if letters else None
@@ -76,6 +82,10 @@ def run(args) -> dict:
                 raise NoDataError(f"no overlap: the precise clocks ({fmt_span(t.min(), t.max())}) and "
                                   f"the navigation records, {describe_navigation_span(nav, present)}",
                                   args.precise[0])
+            window = common.navigation_window(args, nav, present, precise=(precise,))  # pipeline.window
+            if ((t >= window[0]) & (t <= window[1])).any():   # else the comparison says: another day?
+                start, end = window
+        precise = drop_excluded(precise, ledger, item, variable, args.include_unhealthy)  # E14/E18 as broadcast
         table, summary, states = compare_clocks(nav, precise, systems=systems, start=start, end=end,
                                                 step_s=args.step, datum_method=args.datum, rule=args.rule,
                                                 include_unhealthy=args.include_unhealthy,
@@ -86,6 +96,7 @@ def run(args) -> dict:
                                          "outside the time window or not on the --step grid")
         states_used.append(states)
         window = (keep[0], keep[-1])
+        summary.update(_sisre_from_sp3(args, nav, precise, source, states, table, systems, ledger))
     if args.receiver_clocks:
         receiver = read_receiver_clocks(args.receiver_clocks)
         receiver = receiver_rows_in_window(receiver, args.receiver_clocks, start, end, systems,
@@ -105,6 +116,26 @@ def run(args) -> dict:
     return common.emit(args, summary, table, _print_text)
 
 
+def _sisre_from_sp3(args, nav, precise, source, states, table, systems, ledger) -> dict:
+    """The signal-in-space range error when the precise files are SP3 (they hold the orbits too):
+    the clock part from this command's comparison, the orbit part at the same epochs."""
+    # deferred: the orbit stages pull xarray and scipy (start-up of `gnssrel --help`)
+    from gnssrel.jobs.orbits import antenna_offsets, signal_in_space_error
+    from gnssrel.orbits.compare import per_epoch_differences
+    from gnssrel.orbits.precise import precise_states
+    if source != "SP3 clocks" or states is None or "position_ecef_m" not in precise:
+        if getattr(args, "antex", None):
+            ledger.warn("--antex not used: the signal-in-space range error needs SP3 orbits "
+                        "(or `gnssrel orbits --precise SP3 CLK --antex`)")
+        return {}
+    orbits = precise_states(precise, states["time"].values)
+    orbits, antenna = antenna_offsets(getattr(args, "antex", None), orbits, ledger)
+    per_epoch = per_epoch_differences(states, orbits)
+    out = signal_in_space_error(nav, None, states, orbits, per_epoch, systems, clock_table=table,
+                                source="SP3 clocks")
+    return {**out, "antenna_offsets": antenna} if out else {}
+
+
 DATUM_WORDS = {"robust": "alternating per-epoch median and per-satellite mean",
                "epoch-median": "per-epoch median"}
 
@@ -122,6 +153,9 @@ def _print_text(summary: dict) -> None:
                                  "k (periodic term)", "sigma k", "convention"), rows))
         print("k: fitted factor of the periodic term in the precise clocks (0: left out, as broadcast "
               "polynomials do; 1: included)")
+    if summary.get("sisre"):
+        from gnssrel.jobs.orbits import print_radial_and_sisre  # deferred: one table for two commands
+        print_radial_and_sisre(summary)
     if summary.get("receiver_clocks"):
         print_receiver_clocks(summary["receiver_clocks"])
 

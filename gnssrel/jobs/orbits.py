@@ -7,8 +7,15 @@ their own epochs inside the span, and compare
 (:func:`gnssrel.orbits.compare.compare_with_precise`).
 
 Outputs: ``--output`` gets the long state table (time, sv, x_m ... status)
-without ``--precise``, the per-satellite comparison table with it; ``--summary``
+without ``--precise``, the per-satellite comparison table with it (with ``--per-epoch``: the
+broadcast-minus-precise radial / along / cross differences per epoch and satellite); ``--summary``
 gets the summary JSON.  stdout: a short per-system table, or the summary JSON with ``--json``.
+
+With ``--precise`` the summary also holds ``sisre`` (per system: total_m, orbit_m, clock_m; the
+clock part from RINEX clock files given among the --precise files, else the SP3 clocks;
+:mod:`gnssrel.orbits.sisre`) and ``antenna_offsets`` (``--antex``: the precise orbits moved to the
+broadcast phase centre, :mod:`gnssrel.orbits.antenna`; without it the per-satellite mean radial
+difference holds the offset and is printed apart).
 """
 
 from __future__ import annotations
@@ -18,9 +25,9 @@ import logging
 import numpy as np
 import pandas as pd
 
-from gnssrel.errors import NoDataError
+from gnssrel.errors import GnssrelInputError, NoDataError
 from gnssrel.jobs import common
-from gnssrel.orbits.spans import describe_navigation_span, navigation_span
+from gnssrel.orbits.spans import describe_navigation_span
 from gnssrel.text import fmt, fmt_span, in_system_order, system_label, text_table
 
 HELP = "satellite positions and velocities from broadcast ephemerides; compare with SP3"
@@ -28,9 +35,12 @@ DESCRIPTION = (
     "Compute the satellite state histories (ECEF position and velocity, status of each epoch) "
     "from RINEX navigation files on a regular GPST grid. With --precise, compare the broadcast "
     "positions with precise SP3 orbits at the SP3 epochs: per-satellite 3D, radial, along- and "
-    "cross-track RMS and the share of epochs covered (without --start/--end: over the GPST day "
-    "holding most of the navigation records, so an SP3 file of the day before can be given for "
-    "interpolation). Times are GPST unless a scale is written "
+    "cross-track RMS, the share of epochs covered and the signal-in-space range error (orbit and clock "
+    "parts; --antex moves the precise orbits to the broadcast antenna phase centre). Without "
+    "--start/--end every command uses one window: the period the navigation file name declares (e.g. _20201770000_01D_: that GPST day) or "
+    "the day holding most records, cut to the SP3 span (so an SP3 file of the day before can be given "
+    "for interpolation). Satellites excluded by rule (E14, E18) are left out of both unless "
+    "--include-unhealthy. Times are GPST unless a scale is written "
     "after them (e.g. '2020-06-25T06:00 UTC').")
 
 log = logging.getLogger(__name__)
@@ -39,13 +49,22 @@ DEFAULT_STEP_S = 30.0
 
 def add_arguments(parser) -> None:
     parser.add_argument("nav", metavar="NAV", nargs="+", help="RINEX navigation file(s) (2.x, 3.x, 4.00)")
-    parser.add_argument("--precise", metavar="SP3", nargs="+",
-                        help="SP3 orbit files (give the day before too, for interpolation across midnight)")
+    parser.add_argument("--precise", metavar="SP3|CLK", nargs="+",
+                        help="SP3 orbit files (give the day before too, for interpolation across midnight); "
+                             "RINEX clock files among them give the clock part of the signal-in-space range "
+                             "error (else the SP3 clocks)")
     common.add_systems(parser)
     common.add_time_window(parser, DEFAULT_STEP_S,
                            f"grid interval without --precise (default {DEFAULT_STEP_S:g} s)")
     common.add_include_unhealthy(parser)
     common.add_rule(parser)
+    parser.add_argument("--per-epoch", action="store_true",
+                        help="with --precise: --output gets broadcast minus precise per epoch and satellite "
+                             "(time, sv, system, radial_m, along_m, cross_m, difference_3d_m; GPST) instead of "
+                             "the per-satellite statistics")
+    parser.add_argument("--antex", metavar="ATX",
+                        help="with --precise: ANTEX file whose satellite phase-centre offsets move the precise "
+                             "(centre-of-mass) orbits to the phase centre the broadcast orbits refer to")
     parser.add_argument("--frame", choices=("ecef", "eci"), default="ecef",
                         help="eci adds inertial positions/velocities (ECEF frozen at the first epoch)")
     common.add_outputs(parser)
@@ -104,29 +123,41 @@ def _print_table(summary):
              fmt(100 * e["median_coverage"], ".0f"))
             for s, e in ((s, summary["by_system"][s]) for s in systems)]
     print(text_table(("system", "satellites", "median 3D RMS (m)", "max 3D RMS (m)", "coverage (%)"), rows))
+    print_radial_and_sisre(summary)
 
 
 def run(args) -> dict:
     # deferred: the stages pull xarray and scipy (start-up of `gnssrel --help`)
     from gnssrel.io.sp3 import read_sp3
-    from gnssrel.orbits.broadcast import broadcast_states, time_grid
-    from gnssrel.orbits.compare import compare_with_precise
+    from gnssrel.orbits.broadcast import broadcast_states
+    from gnssrel.orbits.compare import compare_with_precise, per_epoch_differences
     from gnssrel.orbits.precise import precise_states
     from gnssrel.pipeline import accounting
-    from gnssrel.pipeline.grid import check_grid_size
-    from gnssrel.pipeline.inputs import read_navigation_files
+    from gnssrel.pipeline.inputs import read_navigation_files, read_precise_clocks, split_precise
+    from gnssrel.pipeline.window import drop_excluded
 
     common.check_outputs(args)
+    if getattr(args, "antex", None) and not args.precise:
+        raise GnssrelInputError("--antex moves precise orbits to the antenna phase centre: give --precise SP3 files")
+    if getattr(args, "per_epoch", False) and not args.precise:
+        raise GnssrelInputError("--per-epoch compares with precise orbits: give --precise SP3 files")
     nav, systems = read_navigation_files(args.nav, common.parse_systems(args.systems))
-    start, end = common.navigation_window(args, nav, systems)
     ledger = accounting.navigation_ledger(nav)
     if args.precise:
-        sp3 = read_sp3(list(args.precise), systems=systems)
+        sp3_paths, clk_paths = split_precise(args.precise)
+        if not sp3_paths:
+            raise GnssrelInputError("--precise: give at least one SP3 file (the orbits); RINEX clock files "
+                                    "only add clocks for the signal-in-space range error", clk_paths[0])
+        sp3 = read_sp3(sp3_paths, systems=systems)
         ledger.merge(accounting.precise_ledger(sp3, "sp3_records", "position_ecef_m"))
+        sp3 = drop_excluded(sp3, ledger, include_unhealthy=args.include_unhealthy)   # as the broadcast rule
+        clk = None
+        if clk_paths:
+            clk, _ = read_precise_clocks(clk_paths, systems)
+            ledger.merge(accounting.precise_ledger(clk, "clock_records", "clock_s"))
+            clk = drop_excluded(clk, ledger, "clock_records", "clock_s", args.include_unhealthy)
+        start, end = common.navigation_window(args, nav, systems, precise=(sp3,))   # pipeline.window
         t = sp3["time"].values
-        if not args.start and not args.end:   # default: the navigation file's main day
-            day_start, day_end = navigation_span(nav, systems, main_day=True)
-            start, end = max(start, day_start), min(end, day_end - np.timedelta64(1, "ns"))
         times = t[(t >= start) & (t <= end)]
         if times.size == 0:
             raise NoDataError(f"the SP3 epochs ({fmt_span(t.min(), t.max())}) do not overlap the "
@@ -134,25 +165,109 @@ def run(args) -> dict:
         precise = precise_states(sp3, times)
         states = broadcast_states(nav, times, systems, args.include_unhealthy, rule=args.rule)
         _check_states(states, nav, systems, start, end)
+        precise, antenna = antenna_offsets(getattr(args, "antex", None), precise, ledger)
         table, summary = compare_with_precise(states, precise)
+        per_epoch = per_epoch_differences(states, precise)
+        if getattr(args, "per_epoch", False):
+            table = per_epoch
         summary = {"mode": "comparison", "start": times[0], "end": times[-1],
                    "n_epochs": int(times.size), "time_scale": "GPST",
-                   "include_unhealthy": bool(args.include_unhealthy), "selection_rule": args.rule, **summary}
+                   "include_unhealthy": bool(args.include_unhealthy), "selection_rule": args.rule, **summary,
+                   "antenna_offsets": antenna,
+                   **signal_in_space_error(nav, sp3 if clk is None else clk, states, precise, per_epoch, systems,
+                                           source="SP3 clocks" if clk is None else "RINEX clock files")}
         accounting.retire_outside_window(ledger, sp3, "sp3_records", "position_ecef_m", times, systems)
+        accounting.retire_outside_window(ledger, clk, "clock_records", "clock_s", times, systems,
+                                         reason="outside the time window or not at an SP3 epoch")
     else:
-        step_ns = round(args.step * 1e9)
-        remainder = int(start.astype("datetime64[ns]").astype(np.int64)) % step_ns
-        grid_start = start + np.timedelta64((step_ns - remainder) % step_ns, "ns")  # on multiples of step
-        check_grid_size(grid_start, end, args.step)
-        times = time_grid(grid_start, end, args.step)
+        start, end = common.navigation_window(args, nav, systems)
+        times = common.window_epochs(args, nav, systems, min_epochs=False)   # on the --step grid of the day
         states = broadcast_states(nav, times, systems, args.include_unhealthy, frame=args.frame, rule=args.rule)
         _check_states(states, nav, systems, start, end)
         table = _netcdf_ready(states) if args.output and args.output.lower().endswith(".nc") \
             else _state_table(states)
-        summary = _states_summary(states, times[0] if times.size else start, end)
+        if times.size:                        # the span printed is the span written
+            start, end = times[0], times[-1]
+        summary = _states_summary(states, start, end)
     accounting.retire_navigation(ledger, nav, [states], systems, start, end, args.include_unhealthy)
     summary["accounting"] = ledger.as_dict()
     return common.emit(args, summary, table, _print_table)
+
+
+def antenna_offsets(antex_path, precise, ledger):
+    """Precise states moved to the broadcast phase centre with ``--antex`` (else unchanged), and
+    the summary entry saying which."""
+    if not antex_path:
+        return precise, {"applied": False, "note": "no --antex: the precise orbits refer to the centre of mass, "
+                                                   "the broadcast ones to the antenna phase centre; the "
+                                                   "per-satellite mean radial difference holds that antenna offset"}
+    from gnssrel.io.antex import read_antex  # deferred: only with --antex
+    from gnssrel.orbits.antenna import to_phase_centre
+    antex = read_antex(antex_path)
+    ledger.merge(antex.accounting)
+    moved, info = to_phase_centre(precise, antex, ledger)
+    return moved, {"applied": True, "file": str(antex_path), "n_satellites": len(info["applied"]),
+                   "offsets_body_m": info["applied"], "missing": info["missing"],
+                   "combination": info["combination"],
+                   "attitude": "nominal yaw steering (z to the Earth, y = z x Sun), low-precision Sun"}
+
+
+def signal_in_space_error(nav, clocks, states, precise, per_epoch, systems, clock_table=None,
+                          source: str = "SP3 clocks") -> dict:
+    """{"sisre": {letter: {...}}, "sisre_satellites": {...}, "sisre_definition": ...} (orbits/sisre.py)
+    with the clock part from ``clocks`` (a Dataset with ``clock_s``: SP3 or RINEX clock) at the
+    states' epochs (clocks/compare.py, per-epoch datum per system), or from ``clock_table`` when
+    the caller has compared the clocks already (``gnssrel clocks``)."""
+    # deferred: the stages pull xarray and scipy (start-up of `gnssrel --help`)
+    from gnssrel.clocks.compare import compare_clocks
+    from gnssrel.orbits.sisre import SISRE_SOURCE, clock_errors_m, per_epoch_sisre, summarize_sisre
+    if per_epoch.empty:
+        return {}
+    clock, note = None, f"clock part: {source}, per-epoch datum per system removed"
+    if clock_table is None and clocks is not None and "clock_s" in clocks \
+            and np.isfinite(clocks["clock_s"].values).any():
+        at = np.flatnonzero(np.isin(clocks["time"].values, states["time"].values))
+        try:
+            clock_table, _ = compare_clocks(nav, clocks[["clock_s"]].isel(time=at), systems=systems,
+                                            states=states, precise_source=source)
+        except NoDataError as error:
+            note = f"no clock part: {error.message}"
+    elif clock_table is None:
+        note = "no clock part: the precise files hold no clock values"
+    if clock_table is not None:
+        clock = clock_errors_m(clock_table)
+    r = np.linalg.norm(precise["position_ecef_m"].transpose("time", "sv", "axis").values, axis=-1)
+    with np.errstate(invalid="ignore"):
+        radius = dict(zip(map(str, precise["sv"].values), np.nanmean(np.where(r > 0, r, np.nan), axis=0)))
+    table, by_system = summarize_sisre(per_epoch_sisre(per_epoch, clock, radius))
+    _, unbiased = summarize_sisre(per_epoch_sisre(per_epoch, clock, radius, remove_mean_radial=True))
+    for letter, entry in by_system.items():      # the antenna offset's share, when no --antex
+        entry["total_mean_radial_removed_m"] = unbiased[letter]["total_m"]
+        entry["orbit_mean_radial_removed_m"] = unbiased[letter]["orbit_m"]
+    satellites = {row.sv: {"total_m": row.sisre_m, "orbit_m": row.sisre_orbit_m, "clock_m": row.sisre_clock_m}
+                  for row in table.itertuples(index=False)}
+    return {"sisre": by_system, "sisre_satellites": satellites,
+            "sisre_definition": f"{SISRE_SOURCE}; RMS over satellites and epochs; {note}"}
+
+
+def print_radial_and_sisre(summary) -> None:
+    """The per-system mean radial difference (the antenna offset without --antex) and the SISRE table
+    (also printed by ``gnssrel clocks`` with SP3 files)."""
+    sisre = summary.get("sisre", {})
+    applied = summary.get("antenna_offsets", {}).get("applied", False)
+    rows = [(system_label(s), fmt(e.get("median_mean_radial_m")), fmt(e.get("total_m")), fmt(e.get("orbit_m")),
+             fmt(e.get("clock_m")), fmt(e.get("published_2013_14_m")))
+            for s, e in ((s, sisre[s]) for s in in_system_order(sisre))]
+    if not rows:
+        return
+    print("signal-in-space range error (broadcast minus precise, global average RMS over satellites and epochs)")
+    print(text_table(("system", "median mean radial (m)", "SISRE (m)", "orbit part (m)", "clock part (m)",
+                      "2013-14 published (m)"), rows))
+    print("mean radial: broadcast minus precise, per satellite then median; "
+          + ("after the ANTEX phase-centre offsets" if applied else
+             "it holds the antenna offset (precise: centre of mass, broadcast: phase centre; --antex removes it)"))
+    print("SISRE = sqrt((w_R R - c dt)^2 + w_AC^2 (A^2 + C^2)) (Montenbruck et al. 2015, GPS Solutions 19); "
+          "clock dt after the per-epoch datum per system")
 
 
 def _check_states(states, nav, systems, start, end) -> None:

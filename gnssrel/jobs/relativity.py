@@ -17,7 +17,7 @@ import pandas as pd
 
 from gnssrel.errors import NoDataError
 from gnssrel.jobs import common
-from gnssrel.orbits.spans import describe_navigation_span, nav_files
+from gnssrel.orbits.spans import describe_navigation_span
 from gnssrel.text import fmt, fmt_span, in_system_order, system_label, text_table
 
 HELP = "relativistic clock terms per satellite and epoch: periodic, J2, rate, proper time"
@@ -26,7 +26,8 @@ DESCRIPTION = (
     "(F e sqrt(A) sin E and -2 r.v/c^2), the J2 periodic term, the rate of the satellite's proper "
     "time against TT (velocity and gravity parts, positive = clock runs fast) and the proper-time "
     "integral along the orbit; summarise per satellite and system. States come from the broadcast "
-    "ephemerides, or with --precise from SP3 orbits. Times are GPST unless a scale is written "
+    "ephemerides, or with --precise from SP3 orbits; satellites excluded by rule (the eccentric Galileo "
+    "E14, E18) are left out of both unless --include-unhealthy. Times are GPST unless a scale is written "
     "after them (e.g. '2020-06-25T06:00 UTC').")
 
 log = logging.getLogger(__name__)
@@ -44,27 +45,30 @@ def add_arguments(parser) -> None:
     common.add_outputs(parser, "per-epoch table (.csv, .parquet or .nc)")
 
 
-def _epochs(nav, systems, args):
+def read_precise_orbits(args, systems, ledger=None):
+    """The --precise SP3 orbits (None without), the satellites excluded by rule left out and counted
+    (gnssrel.pipeline.window.drop_excluded) unless --include-unhealthy, as in the broadcast path."""
     # deferred: the stages pull xarray and scipy (start-up of `gnssrel --help`)
-    from gnssrel.pipeline.grid import epoch_grid
+    from gnssrel.io.sp3 import read_sp3
+    from gnssrel.pipeline import accounting
+    from gnssrel.pipeline.window import drop_excluded
 
-    start, end = common.navigation_window(args, nav, systems)
-    if args.start or args.end:
-        window = f"between --start and --end ({fmt_span(start, end)})"
-    else:
-        window = (f"in the default window {fmt_span(start, end)}, the span of the bulk of the "
-                  f"navigation records' reference times in {nav_files(nav)}")
-    return epoch_grid(start, end, args.step, window)
+    if not args.precise:
+        return None
+    sp3 = read_sp3(list(args.precise), systems=list(systems))
+    if ledger is not None:
+        ledger.merge(accounting.precise_ledger(sp3, "sp3_records", "position_ecef_m"))
+    return drop_excluded(sp3, ledger, include_unhealthy=args.include_unhealthy)
 
 
-def states_for(args, nav, systems, times, ledger=None):
+def states_for(args, nav, systems, times, ledger=None, sp3=None):
     """Broadcast states, or precise ones carrying the broadcast elements (NaN where none).
 
     With a ``ledger``, the navigation records no state used are retired in it, and
-    the SP3 reader's counts added with the records outside the epochs retired.
+    the SP3 records outside the reach of the epochs retired (``sp3``: from
+    :func:`read_precise_orbits` with the same ledger; read here when not given).
     """
     # deferred: the stages pull xarray and scipy (start-up of `gnssrel --help`)
-    from gnssrel.io.sp3 import read_sp3
     from gnssrel.orbits.broadcast import broadcast_states
     from gnssrel.orbits.elements import with_broadcast_elements
     from gnssrel.orbits.precise import precise_states
@@ -77,9 +81,9 @@ def states_for(args, nav, systems, times, ledger=None):
                                      args.include_unhealthy)
     if not args.precise:
         return broadcast
-    sp3 = read_sp3(list(args.precise), systems=list(systems))
+    if sp3 is None:
+        sp3 = read_precise_orbits(args, systems, ledger)
     if ledger is not None:
-        ledger.merge(accounting.precise_ledger(sp3, "sp3_records", "position_ecef_m"))
         # SP3 records used: those the interpolation of the grid can reach; the others are outside
         accounting.retire_beyond_reach(ledger, sp3, "sp3_records", "position_ecef_m", times[0], times[-1],
                                        accounting.sp3_reach_s(sp3), systems)
@@ -108,9 +112,10 @@ def run(args) -> dict:
 
     common.check_outputs(args)
     nav, present = read_navigation_files(args.nav, common.parse_systems(args.systems))
-    times = _epochs(nav, present, args)
     ledger = accounting.navigation_ledger(nav)
-    states = states_for(args, nav, present, times, ledger)
+    sp3 = read_precise_orbits(args, present, ledger)
+    times = common.window_epochs(args, nav, present, precise=(sp3,))   # one window rule: pipeline.window
+    states = states_for(args, nav, present, times, ledger, sp3)
     if not np.isfinite(states["position_ecef_m"].values).any():
         raise NoDataError(f"no satellite has a usable state in the window {fmt_span(times[0], times[-1])}; "
                           f"the navigation records: {describe_navigation_span(nav, present)}"
@@ -136,6 +141,6 @@ def _print_text(summary: dict) -> None:
         rows.append((system_label(letter), row["satellites"], fmt(row["median_rate_total"], ".5e"),
                      fmt(row["median_us_per_day_total"], ".3f"), fmt(periodic, ".2f"),
                      fmt(max(diffs) if diffs else None, ".3f")))
-    print(text_table(("system", "satellites", "rate vs TT (s/s)", "rate (µs/day)",
+    print(text_table(("system", "satellites", "median rate vs TT (s/s)", "median rate (µs/day)",
                              "max periodic (ns)", "max spec - state (ns)"), rows))
 

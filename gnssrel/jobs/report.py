@@ -22,9 +22,9 @@ DESCRIPTION = (
     "self-contained report.html with every figure embedded, each figure also as PNG and SVG, "
     "the tables as CSV and summary.json. --receiver-fixes and --receiver-clocks pair with --obs "
     "in the order given. Every stage uses the same --systems and --start/--end window. Default "
-    "window: the span of the --obs logs when given; else the overlap of the navigation records' "
-    "span with the span of each --precise file (so a day of SP3/clock products selects that "
-    "day); else the navigation records' span. The folder is written complete or not at all.")
+    "window, as in every command: the span of the --obs logs when given; else the period the "
+    "navigation file name declares (e.g. _20201770000_01D_: that GPST day) or the day holding most "
+    "records, cut to the --precise products' span. The folder is written complete or not at all.")
 
 log = logging.getLogger(__name__)
 DEFAULT_STEP_S = 30.0   # gnssrel.pipeline.analysis.DEFAULT_STEP_S (not imported: --help stays light)
@@ -40,15 +40,23 @@ def add_arguments(parser) -> None:
     parser.add_argument("--obs", metavar="OBS", nargs="+", default=[],
                         help="receiver observation logs (RINEX 2/3/4) to audit")
     parser.add_argument("--receiver-fixes", metavar="FILE", nargs="+", default=[],
-                        help="each receiver's own fixes (NMEA GGA or CSV), one per --obs, same order")
+                        help="each receiver's own fixes, one per --obs, same order: "
+                             + common.RECEIVER_FIXES_FORMAT)
     parser.add_argument("--receiver-clocks", metavar="FILE.csv", nargs="+", default=[],
-                        help="each receiver's own satellite-clock table, one per --obs, same order")
+                        help="each receiver's own satellite-clock table, one per --obs, same order: "
+                             + common.RECEIVER_CLOCKS_FORMAT)
+    parser.add_argument("--receiver-clock-bias", metavar="FILE.csv", nargs="+", default=[],
+                        help="each receiver's own clock series, one per --obs, same order: CSV with columns time, "
+                             "time_scale (GPST, UTC, GST or BDT), clock_bias_ns and optionally clock_drift_ns_per_s")
     common.add_systems(parser)
     common.add_time_window(parser, None, STEP_HELP)
     common.add_rule(parser)
-    parser.add_argument("--title", default=None, help="report title (default: from the files)")
+    parser.add_argument("--title", default=None,
+                        help="report title (default: from the files: the station(s) and the day, e.g. "
+                             "'NYA1 2024-05-03 (day 124)')")
     parser.add_argument("--output", required=True, metavar="DIR", help="report folder to write")
     parser.add_argument("--plots", metavar="DIR", help="also copy the PNG figures into this folder")
+    common.add_fail_on_fault(parser)
     common.add_json(parser, "print summary.json on stdout instead of the findings")
 
 
@@ -58,10 +66,13 @@ def _progress(args):
 
 
 def print_findings(content, report_path, verbose: bool = False) -> None:
-    """The end of ``gnssrel report``/``demo`` on the terminal: the report's path, the verdicts, the accounting."""
+    """The end of ``gnssrel report``/``demo`` on the terminal: the report's path, the findings (those of the
+    report's findings box: verdicts, every result computed, what was not judged), the accounting."""
+    from gnssrel.report.findings import report_findings  # deferred: the report layer (start-up of --help)
+
     print(f"report: {report_path}")
-    for r in content.receivers:
-        print(f"  {r.verdict['verdict']}")
+    for finding in report_findings(content):
+        print(f"  {finding.text}")
     for note in content.notes:
         print(f"  note: {note}")
     common.print_accounting(content.summary, verbose)
@@ -79,11 +90,20 @@ def run(args) -> dict:
     start, end = common.time_window(args)
     content = analyse(args.nav, args.precise, args.obs, args.receiver_fixes, args.receiver_clocks,
                       title=args.title, progress=progress, systems=common.parse_systems(args.systems),
-                      start=start, end=end, step_s=args.step, rule=args.rule)
+                      start=start, end=end, step_s=args.step, rule=args.rule,
+                      clock_series_paths=args.receiver_clock_bias)
+    if not args.title:
+        from gnssrel.report.titles import report_title  # deferred: the report layer (start-up of --help)
+
+        content.title = content.summary["title"] = report_title(content)
+    for r in content.receivers:   # header/body disagreements of each log (gnssrel audit prints them too)
+        for warning in ((r.audit_summary or {}).get("observations") or {}).get("reader_warnings", []):
+            log.warning("%s: %s", r.observations_path, warning)
     progress("drawing the figures and writing the report")
     folder = write_report(content, args.output, plots=args.plots)
     if args.json:
         print(to_json_text(content.summary))
     elif not args.quiet:
         print_findings(content, Path(folder) / "report.html", verbose=bool(args.verbose))
+    common.flag_faults(args, [r.name for r in content.receivers if (r.verdict or {}).get("faulty") is True])
     return content.summary

@@ -5,6 +5,7 @@ from __future__ import annotations
 import json
 import logging
 
+from gnssrel.errors import GnssrelInputError
 from gnssrel.io.writers import to_json_text
 from gnssrel.jobs import common
 from gnssrel.simulate.scenario import DEFAULT_SEED
@@ -19,6 +20,10 @@ DESCRIPTION = (
     "observation file, its own position fixes (NMEA GGA) and its own satellite-clock table "
     "(CSV).  One receiver's firmware is correct; the other leaves out the periodic "
     "relativistic clock term.  scenario.json says which.  Same seed, same bytes.  "
+    "With --receiver low-cost: two single-frequency low-cost modules instead (milliseconds of clock "
+    "offset drifting ~1e-7 with one 1 ms step, C/N0-dependent noise, multipath, a few gross outliers "
+    "listed in scenario.json, filtered fixes and their own clock bias/drift CSV; one doubles the "
+    "periodic term).  "
     "With --stations N --days D: an invented campaign instead, N receivers (every second one "
     "faulty) logging each day, one folder per day, with campaign.csv listing each station-day's "
     "files and scenario.json the truth.")
@@ -35,8 +40,13 @@ def add_arguments(parser):
                         help="write a campaign of N receivers (up to 8; default 2 with --days)")
     parser.add_argument("--days", type=int, default=None, metavar="D",
                         help="write a campaign of D consecutive days (default 1 with --stations)")
-    parser.add_argument("--step", "--interval", dest="interval", type=float, default=30.0, metavar="SECONDS",
-                        help="observation interval of the receiver logs (default 30 s)")
+    parser.add_argument("--step", "--interval", dest="interval", type=float, default=None, metavar="SECONDS",
+                        help="observation interval of the receiver logs (default 30 s; 1 s with --receiver low-cost)")
+    parser.add_argument("--receiver", choices=("geodetic", "low-cost"), default="geodetic",
+                        help="the receivers of the scenario: two geodetic dual-frequency receivers (default), or "
+                             "two single-frequency low-cost modules (ms clock offset and drift with a 1 ms step, "
+                             "C/N0-dependent noise, multipath, outliers, filtered fixes and their own clock series "
+                             "CSV; one correct, one doubling the periodic term); default 0.5 h at 1 s")
     common.add_json(parser, "print the scenario manifest as JSON on stdout instead of the text")
 
 
@@ -55,15 +65,21 @@ def _scenario(args) -> tuple[dict, list[str]]:
     # deferred: the scenario writers (a dozen modules) are needed by this command only (start-up of --help)
     from gnssrel.simulate.generate import write_scenario
 
-    hours = 3.0 if args.hours is None else args.hours
-    manifest = write_scenario(args.output, seed=args.seed, hours=hours, interval_s=args.interval)
+    low_cost = args.receiver == "low-cost"
+    hours = (0.5 if low_cost else 3.0) if args.hours is None else args.hours
+    interval = (1.0 if low_cost else 30.0) if args.interval is None else args.interval
+    manifest = write_scenario(args.output, seed=args.seed, hours=hours, interval_s=interval, receivers=args.receiver)
     lines = [(f"invented scenario: {len(manifest['files'])} files in {args.output}, "
               f"{fmt_span(parse_time(manifest['start'], 'GPST'), parse_time(manifest['end'], 'GPST'))}, "
               f"seed {args.seed}")]
     for r in manifest["receivers"]:
         state = "faulty: periodic term " + r["fault"]["mode"] if r["faulty"] else "correct firmware"
+        extra = ""
+        if r.get("kind") == "low-cost":
+            extra = (f"; clock {r['clock_offset_s'] * 1e3:+.1f} ms drifting {r['clock_drift_s_per_s']:+.1e} s/s, "
+                     f"1 ms step at {r['clock_steps'][0]['time']} GPST; {len(r['outliers'])} outliers")
         lines.append(f"  receiver {r['marker']}: {state}; its fixes are off by "
-                     f"{r['fix_error_3d_m']['median']:.1f} m (median 3D)")
+                     f"{r['fix_error_3d_m']['median']:.1f} m (median 3D){extra}")
     return manifest, lines
 
 
@@ -74,10 +90,13 @@ def _campaign(args) -> tuple[dict, list[str]]:
     hours = DEFAULT_CAMPAIGN_HOURS if args.hours is None else args.hours
     stations = 2 if args.stations is None else args.stations
     days = 1 if args.days is None else args.days
-    manifest = write_campaign(args.output, stations, days, seed=args.seed, hours=hours, interval_s=args.interval)
+    if args.receiver != "geodetic":
+        raise GnssrelInputError("--receiver low-cost: not with --stations/--days (campaigns have geodetic receivers)")
+    interval = 30.0 if args.interval is None else args.interval
+    manifest = write_campaign(args.output, stations, days, seed=args.seed, hours=hours, interval_s=interval)
     return manifest, [
         (f"invented campaign: {stations} stations x {days} days = {len(manifest['station_days'])} station-days, "
          f"{len(manifest['files'])} files in {args.output} (campaign.csv lists them), "
-         f"{hours:g} h logs at {args.interval:g} s, seed {args.seed}"),
+         f"{hours:g} h logs at {interval:g} s, seed {args.seed}"),
         (f"  faulty firmware (periodic term omitted): {', '.join(manifest['faulty_receivers']) or 'none'}; "
          f"correct: {', '.join(manifest['correct_receivers']) or 'none'}")]

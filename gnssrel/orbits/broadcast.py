@@ -21,7 +21,7 @@ from collections.abc import Mapping
 import numpy as np
 import xarray as xr
 
-from gnssrel.constants import SYSTEM_ORDER
+from gnssrel.constants import ALL_SYSTEM_ORDER, SYSTEM_ORDER
 from gnssrel.orbits.frames import OMEGA_ECI_RAD_S, ecef_to_eci
 from gnssrel.orbits.models import clock_polynomial_s, orbit_model
 from gnssrel.orbits.selection import DEFAULT_RULE, get_rule, select_ephemerides, status_codes
@@ -60,7 +60,7 @@ def _system_block(table, letter: str, times: np.ndarray, include_unhealthy: bool
     clock = clock_polynomial_s(cols, t_valid, letter)
     toe = cols[system_model(letter).reference_column]
     ecc = cols.get("eccentricity", np.full(picked.size, np.nan))
-    sqrt_a = cols.get("sqrt_a_sqrt_m", np.full(picked.size, np.nan))
+    sqrt_a = states.get("sqrt_a_sqrt_m", cols.get("sqrt_a_sqrt_m", np.full(picked.size, np.nan)))  # CNAV: A_k
 
     def grid(values, fill=np.nan, dtype=np.float64, tail=()):
         out = np.full((n_time, n_sv) + tail, fill, dtype=dtype)
@@ -104,7 +104,7 @@ def broadcast_states(nav, times, systems=None, include_unhealthy: bool = False,
     times = as_datetime64(times).ravel()
     tables = _ephemerides(nav)
     wanted = SYSTEM_ORDER if systems is None else "".join(systems).upper()
-    letters = [s for s in SYSTEM_ORDER if s in wanted and s in tables and len(tables[s])]
+    letters = [s for s in ALL_SYSTEM_ORDER if s in wanted and s in tables and len(tables[s])]  # I, S when asked
     blocks = [_system_block(tables[s], s, times, include_unhealthy, rule) for s in letters]
     if not blocks:
         blocks = [{"sv": [], "status": np.zeros((times.size, 0), np.int8),

@@ -9,6 +9,21 @@ BeiDou GEO rotation differ:
 * BeiDou: BDS-SIS-ICD-B1I 5.2.4.12 (CGCS2000 mu = 3.986004418e14, Omega_e = 7.2921150e-5);
   GEO satellites (``is_geo``) get the node in inertial form and the
   R_Z(Omega_e t_k) R_X(-5 deg) rotation (REFERENCE-CHECKS 2.1).
+* NavIC: IRNSS SPS ICD 1.1, the GPS algorithm with the GPS values of mu and Omega_e
+  (from memory; :data:`gnssrel.constants.NAVIC`).
+
+CNAV-type records (GPS/QZSS CNAV and CNV2, IS-GPS-200 30.3.3.1.3 Table 30-II and IS-GPS-800;
+BeiDou-3 CNV1/CNV2, BDS-SIS-ICD-B1C 1.0 / B2a 1.0, same form) add two optional columns,
+``a_dot_m_per_s`` (A dot) and ``delta_n_dot_rad_per_s2`` (Delta n_0 dot); with them
+A_k = A_0 + A_dot t_k, n_A = n_0 + Delta n_0 + Delta n_0 dot t_k / 2, M_k = M_0 + n_A t_k,
+r_k = A_k (1 - e cos E_k) + corrections, where A_0 = (``sqrt_a_sqrt_m``)^2 (RINEX 4 stores
+sqrt(A_ref + Delta A)) and ``omega_dot_rad_per_s`` is already Omega_dot_ref + Delta Omega_dot
+(:mod:`gnssrel.io.rinex_nav_messages`).  Absent or NaN, both are 0 and the legacy algorithm
+results, bit for bit.  ``semi_major_axis_m`` (A_k) is returned, and with the CNAV rates also
+``sqrt_a_sqrt_m`` = sqrt(A_k), which the state builder keeps for the periodic term: IS-GPS-200
+30.3.3.3.1.1 gives Delta t_r = F e sqrt(A) sin E_k for CNAV with "A" the semi-major axis of the
+CNAV orbit, which we read as A_k at t (from memory; A_0 instead changes the term by
+A_dot t_k / 2 A_0 of itself, < 2e-6 relative, below 1e-13 s).
 
 Constants come from ``gnssrel.constants.SYSTEMS[letter]``.  Time from the
 ephemeris reference epoch t_k is taken from full GPST datetimes differenced in
@@ -40,7 +55,10 @@ ELEMENT_COLUMNS = (
     "perigee_argument_rad", "cuc_rad", "cus_rad", "crc_m", "crs_m", "cic_rad", "cis_rad",
     "inclination_rad", "idot_rad_per_s", "omega0_rad", "omega_dot_rad_per_s",
 )
-"""Contract columns the algorithm reads (``toe_sow_s`` and ``is_geo`` optional)."""
+"""Contract columns the algorithm reads (:data:`OPTIONAL_COLUMNS` where the table has them)."""
+CNAV_COLUMNS = ("a_dot_m_per_s", "delta_n_dot_rad_per_s2")
+OPTIONAL_COLUMNS = ("toe_sow_s", "is_geo") + CNAV_COLUMNS
+KEPLER_SYSTEMS = ("G", "E", "C", "J", "I")
 
 
 def solve_kepler(mean_anomaly_rad, eccentricity) -> np.ndarray:
@@ -75,7 +93,7 @@ def kepler_states(elements: Mapping, t_gpst, system: str, frame: str = "ecef") -
     elements: mapping of contract column names (``ELEMENT_COLUMNS``; optional
         ``toe_sow_s``, ``is_geo``) to arrays broadcastable with ``t_gpst``.
     t_gpst: datetime64[ns] GPST, any shape S broadcastable with the elements.
-    system: RINEX letter ``G``, ``E``, ``C`` or ``J``.
+    system: RINEX letter ``G``, ``E``, ``C``, ``J`` or ``I``.
     frame: ``"ecef"`` (the system's Earth-fixed frame) or ``"eci"``: the ECEF frame
         frozen at the start of the system's week of toe, turned at the system's
         Omega_e (for GPS this is the algorithm without its Earth-rotation step,
@@ -85,10 +103,11 @@ def kepler_states(elements: Mapping, t_gpst, system: str, frame: str = "ecef") -
     Returns a dict of arrays of shape S (vectors S + (3,)): ``position_ecef_m``,
     ``velocity_ecef_m_per_s`` (keys keep these names in the ECI case too; the
     caller labels the frame), ``eccentric_anomaly_rad``, ``argument_of_latitude_rad``
-    (corrected u_k), ``radius_m``, ``inclination_rad`` (corrected i_k), ``tk_s``.
+    (corrected u_k), ``radius_m``, ``inclination_rad`` (corrected i_k), ``tk_s``,
+    ``semi_major_axis_m`` (A_k; A for legacy records).
     """
-    if system not in ("G", "E", "C", "J"):
-        raise ValueError(f"kepler_states handles G, E, C, J, not {system!r}")
+    if system not in KEPLER_SYSTEMS:
+        raise ValueError(f"kepler_states handles {', '.join(KEPLER_SYSTEMS)}, not {system!r}")
     if frame not in ("ecef", "eci"):
         raise ValueError(f"frame must be 'ecef' or 'eci', not {frame!r}")
     const = SYSTEMS[system]
@@ -102,6 +121,12 @@ def kepler_states(elements: Mapping, t_gpst, system: str, frame: str = "ecef") -
 
     a = f["sqrt_a_sqrt_m"] ** 2                        # A = (sqrt A)^2
     n = np.sqrt(mu / a**3) + f["delta_n_rad_per_s"]    # n = n0 + delta n
+    a_dot, n_dot = _cnav_rates(elements)
+    m_rate = n                                         # dM_k/dt
+    if a_dot is not None:                              # Table 30-II: A_k, n_A
+        a = a + a_dot * tk
+        m_rate = n + n_dot * tk
+        n = n + 0.5 * n_dot * tk
     e = f["eccentricity"]
     m = f["mean_anomaly_rad"] + n * tk                 # M_k = M0 + n t_k
     big_e = solve_kepler(m, e)                         # M_k = E_k - e sin E_k
@@ -116,10 +141,12 @@ def kepler_states(elements: Mapping, t_gpst, system: str, frame: str = "ecef") -
     inc = f["inclination_rad"] + f["cis_rad"] * s2 + f["cic_rad"] * c2 + f["idot_rad_per_s"] * tk
 
     # Derivatives (analytic): dE/dt, dnu/dt = dPhi/dt, then each correction.
-    e_dot = n / one_minus
+    e_dot = m_rate / one_minus
     phi_dot = e_dot * root / one_minus
     u_dot = phi_dot * (1.0 + 2.0 * (f["cus_rad"] * c2 - f["cuc_rad"] * s2))
     r_dot = a * e * sin_e * e_dot + 2.0 * phi_dot * (f["crs_m"] * c2 - f["crc_m"] * s2)
+    if a_dot is not None:
+        r_dot = r_dot + a_dot * one_minus
     inc_dot = f["idot_rad_per_s"] + 2.0 * phi_dot * (f["cis_rad"] * c2 - f["cic_rad"] * s2)
 
     xp, yp = r * np.cos(u), r * np.sin(u)              # position in the orbital plane
@@ -148,7 +175,20 @@ def kepler_states(elements: Mapping, t_gpst, system: str, frame: str = "ecef") -
     return {"position_ecef_m": pos, "velocity_ecef_m_per_s": vel,
             "eccentric_anomaly_rad": big_e, "argument_of_latitude_rad": u,
             "radius_m": r, "inclination_rad": inc,
-            "tk_s": np.broadcast_to(tk, big_e.shape).copy()}
+            "tk_s": np.broadcast_to(tk, big_e.shape).copy(),
+            "semi_major_axis_m": np.broadcast_to(a, big_e.shape).copy(),
+            **({} if a_dot is None else {"sqrt_a_sqrt_m": np.sqrt(np.broadcast_to(a, big_e.shape))})}
+
+
+def _cnav_rates(elements: Mapping):
+    """(A dot, Delta n_0 dot) as arrays with NaN read as 0, or (None, None) when the
+    records have neither (legacy messages: the algorithm stays as it was)."""
+    if not any(k in elements for k in CNAV_COLUMNS):
+        return None, None
+    rates = [np.nan_to_num(np.asarray(elements.get(k, 0.0), dtype=np.float64)) for k in CNAV_COLUMNS]
+    if not any(np.any(r != 0.0) for r in rates):
+        return None, None
+    return rates[0], rates[1]
 
 
 def _beidou_geo_rotation(pos, vel, tk, is_geo, omega_e):

@@ -7,7 +7,9 @@ to its evaluator and the record columns it reads:
 * ``"keplerian"``: :func:`gnssrel.orbits.keplerian.kepler_states` (IS-GPS-200 Table 20-IV;
   Galileo, BeiDou incl. GEO, QZSS);
 * ``"state_vector"``: :func:`gnssrel.orbits.glonass.glonass_states` (RK4 on the PZ-90
-  state at t_b, GLONASS ICD 2008 A.3.1.2).
+  state at t_b, GLONASS ICD 2008 A.3.1.2);
+* ``"sbas_quadratic"``: :func:`gnssrel.orbits.geo_states.sbas_states` (the SBAS GEO
+  message's position, velocity and acceleration as a quadratic in t - t_0, RTCA DO-229 A.4.4.11).
 
 Every evaluator takes ``(records, t_gpst, system)``, records a mapping of contract columns
 to arrays broadcastable with ``t_gpst``, and returns the keys of ``kepler_states``
@@ -25,7 +27,9 @@ so, with the columns the system model names (``clock_columns``):
   SIS ICD 5.1.4); BeiDou: the same form (BDS-SIS-ICD-B1I 3.0, 5.2.4.9);
 * GLONASS: -tau_n + gamma_n (t - t_b) (GLONASS ICD 2008 ed. 5.1, 3.3.3; RINEX stores
   -tau_n and +gamma_n, so the file's columns are added as they are; t_b is a full
-  datetime here, so no day crossover is needed).
+  datetime here, so no day crossover is needed);
+* NavIC: the GPS form (IRNSS SPS ICD 1.1, from memory); SBAS: a_Gf0 + a_Gf1 (t - t_0,GEO)
+  (RTCA DO-229 A.4.4.11, from memory), no a2, no fold (t_0 is a full GPST datetime).
 """
 
 from __future__ import annotations
@@ -35,10 +39,11 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from gnssrel.orbits import geo_states
 from gnssrel.orbits.glonass import ACCELERATION_COLUMNS, STATE_COLUMNS, glonass_states
-from gnssrel.orbits.keplerian import ELEMENT_COLUMNS, kepler_states
+from gnssrel.orbits.keplerian import ELEMENT_COLUMNS, OPTIONAL_COLUMNS, kepler_states
 from gnssrel.orbits.selection import take_rows
-from gnssrel.systems import ORBIT_KEPLERIAN, ORBIT_STATE_VECTOR, system_model
+from gnssrel.systems import ORBIT_KEPLERIAN, ORBIT_SBAS_QUADRATIC, ORBIT_STATE_VECTOR, system_model
 from gnssrel.timescales import seconds_between, week_crossover
 
 __all__ = ["ORBIT_MODELS", "OrbitModel", "broadcast_clock_s", "clock_polynomial_s", "orbit_model"]
@@ -55,9 +60,11 @@ class OrbitModel:
 
 
 ORBIT_MODELS = {m.name: m for m in (
-    OrbitModel(ORBIT_KEPLERIAN, kepler_states, ELEMENT_COLUMNS, ("toe_sow_s", "is_geo")),
+    OrbitModel(ORBIT_KEPLERIAN, kepler_states, ELEMENT_COLUMNS, OPTIONAL_COLUMNS),
     OrbitModel(ORBIT_STATE_VECTOR, lambda records, t, system: glonass_states(records, t),
                ("toc",) + STATE_COLUMNS + ACCELERATION_COLUMNS),
+    OrbitModel(ORBIT_SBAS_QUADRATIC, geo_states.sbas_states,
+               ("toc",) + geo_states.STATE_COLUMNS + geo_states.ACCELERATION_COLUMNS),
 )}
 """Orbit models by the name a system model gives (module text)."""
 

@@ -125,16 +125,23 @@ class SystemLimits:
 
 
 SYSTEM_LIMITS = {
-    "G": SystemLimits(2 * 3600.0, 2 * 3600.0, use_fit_interval=True,
+    # issue 14: LNAV (D1/D2) records stay preferred, the RINEX 4 CNAV/CNV1/CNV2 ones serve the
+    # epochs no legacy record covers (results on files without them are unchanged).
+    "G": SystemLimits(2 * 3600.0, 2 * 3600.0, use_fit_interval=True, preferred_nav_types=("LNAV", "CNAV", "CNV2"),
                       limit_text="GPS within half the fit interval of toe (2 h for 4 h)"),
-    "J": SystemLimits(1 * 3600.0, 1 * 3600.0, use_fit_interval=True,
+    "J": SystemLimits(1 * 3600.0, 1 * 3600.0, use_fit_interval=True, preferred_nav_types=("LNAV", "CNAV", "CNV2"),
                       limit_text="QZSS within half the fit interval of toe (1 h for 2 h)"),
     "E": SystemLimits(3 * 3600.0, 0.5 * 3600.0, preferred_nav_types=("INAV", "FNAV"),
                       excluded_svs=("E14", "E18"), napa_is_unhealthy=True,
                       limit_text="Galileo 3 h after toe, 30 min before (E14, E18: 1.5 h after, none before)",
                       satellite_limits=(("E14", 1.5 * 3600.0, 0.0), ("E18", 1.5 * 3600.0, 0.0))),
-    "C": SystemLimits(2 * 3600.0, 1 * 3600.0, limit_text="BeiDou 2 h after toe, 1 h before"),
+    "C": SystemLimits(2 * 3600.0, 1 * 3600.0, preferred_nav_types=("D1", "D2", "CNV1", "CNV2"),
+                      limit_text="BeiDou 2 h after toe, 1 h before"),
     "R": SystemLimits(20 * 60.0, 20 * 60.0, limit_text="GLONASS within 20 min of t_b"),
+    # issue 14, both from memory: NavIC ephemerides are refreshed every 2 h (IRNSS SPS ICD 1.1);
+    # the SBAS GEO navigation message times out after a few minutes (RTCA DO-229 A.4.4.11).
+    "I": SystemLimits(2 * 3600.0, 2 * 3600.0, limit_text="NavIC within 2 h of toe"),
+    "S": SystemLimits(6 * 60.0, 6 * 60.0, limit_text="SBAS within 6 min of t_0"),
 }
 """Per-system limits shared by both rules (figures and sources in the module text), counted
 from each record's reference time (``reference_column`` of :data:`gnssrel.systems.SYSTEM_MODELS`).
@@ -164,7 +171,7 @@ def status_codes(rule: str = DEFAULT_RULE, systems: str = "GJECR") -> dict:
     """``STATUS_CODES`` with code 1 naming the limits of ``systems`` and code 4 the rule."""
     get_rule(rule)
     codes = dict(STATUS_CODES)
-    texts = [SYSTEM_LIMITS[s].limit_text for s in "GJECR" if s in systems and s in SYSTEM_LIMITS]
+    texts = [SYSTEM_LIMITS[s].limit_text for s in "GJECRIS" if s in systems and s in SYSTEM_LIMITS]
     if texts:
         codes[1] = f"no record within the maximum age ({'; '.join(texts)})"
     if rule == "post":

@@ -19,6 +19,7 @@ import numpy as np
 
 from gnssrel.accounting import READ, USED, Ledger
 from gnssrel.audit.observables import pseudorange_counts
+from gnssrel.audit.positioning import DOP_GATE
 from gnssrel.orbits import selection
 
 UNHEALTHY = "unhealthy"
@@ -282,6 +283,7 @@ def sp3_reach_s(sp3) -> float:
 # -- the audit ---------------------------------------------------------------------------------
 
 NO_POSITION = "no position (too few usable satellites)"
+NO_POSITION_DOP = "no position (PDOP above the gate)"
 NO_EPOCH = "no epoch of the log at its time"
 
 
@@ -321,7 +323,12 @@ def audit_accounting(result, obs_ds, nav, systems, precise=None, fixes=None, rec
     epoch_system = next(iter(obs_ledger.counts.get("epochs", {"-": 0})), "-")
     applied = result.positions.get("applied")
     if applied is not None:
-        obs_ledger.retire("epochs", epoch_system, NO_POSITION, int((~np.isfinite(applied["x_m"].to_numpy())).sum()))
+        missing = ~np.isfinite(applied["x_m"].to_numpy())
+        gated = missing & (applied["no_fix_reason"].to_numpy() == DOP_GATE) if "no_fix_reason" in applied \
+            else np.zeros(missing.shape, bool)
+        obs_ledger.retire("epochs", epoch_system, NO_POSITION, int((missing & ~gated).sum()))
+        if gated.any():                 # issue 13: a fix whose geometry is too poor is not given
+            obs_ledger.retire("epochs", epoch_system, NO_POSITION_DOP, int(gated.sum()))
     ledger.merge(obs_ledger)
     times = np.asarray(obs_ds["time"].values).astype("datetime64[ns]")
     if times.size and navigation:

@@ -45,6 +45,7 @@ class ReportContent:
     description: str | None = None
     orbit_table: pd.DataFrame | None = None
     orbit_summary: dict | None = None
+    orbit_differences: pd.DataFrame | None = None  # per_epoch_differences: broadcast - precise, RAC per epoch
     clock_table: pd.DataFrame | None = None
     clock_summary: dict | None = None
     clock_source: str | None = None

@@ -17,6 +17,7 @@ import xarray as xr
 
 from gnssrel.accounting import Ledger
 from gnssrel.audit import summary as _audit
+from gnssrel.audit.receiver_clock import receiver_clock_series
 from gnssrel.clocks.compare import compare_clocks as _compare_clocks
 from gnssrel.clocks.compare import select_epochs
 from gnssrel.orbits.broadcast import broadcast_states
@@ -107,12 +108,18 @@ class LogAudit:
         """Per-epoch 3-D error against the reference position for each hypothesis, m."""
         return _audit.per_epoch_errors(self.result)
 
+    def receiver_clock(self) -> pd.DataFrame:
+        """Per-epoch receiver clock of the "applied" fixes: ``time`` (GPST), ``clock_bias_s``,
+        ``clock_drift_s_per_s``, ``clock_jump_s`` (:mod:`gnssrel.audit.receiver_clock`)."""
+        return receiver_clock_series(self.result.positions["applied"])
+
 
 def audit_log(obs: xr.Dataset, nav, systems=None, precise: dict | None = None, fixes: pd.DataFrame | None = None,
               receiver_clocks: pd.DataFrame | None = None, receiver_position_ecef_m=None,
-              elevation_mask_deg: float = 10.0, weighting: str = "elevation", rule: str = DEFAULT_RULE,
+              elevation_mask_deg: float = 10.0, weighting: str = "auto", rule: str = DEFAULT_RULE,
               receiver_clock_verdict: str | None = None, count_navigation: bool = True,
-              counted_clock_rows: pd.DataFrame | None = None) -> LogAudit:
+              counted_clock_rows: pd.DataFrame | None = None, frequencies: str = "auto",
+              smooth_code_s: float | None = None, fix_options: dict | None = None) -> LogAudit:
     """Audit one receiver log: corrections per observation, positions, the k of the periodic term.
 
     ``obs``: observation Dataset (time, sv) of :func:`gnssrel.read_observations`; ``nav``:
@@ -126,11 +133,15 @@ def audit_log(obs: xr.Dataset, nav, systems=None, precise: dict | None = None, f
     The accounting counts the navigation records too unless ``count_navigation`` is False
     (a report counts them once for every stage); ``counted_clock_rows``: a clock table
     checked elsewhere whose rows are counted here.  ``receiver_clock_verdict`` replaces
-    the clock-table verdict of the summary.
+    the clock-table verdict of the summary.  ``frequencies`` ("auto", "single", "dual") and
+    ``smooth_code_s`` (carrier-smoothing window, s, or None): the codes used (issue 13).
+    ``fix_options``: the residual test and gates of the fixes (keywords of
+    :func:`gnssrel.audit.positioning.single_point_positions`: ``false_alarm``, ``max_pdop``, ...).
     """
     result = _audit.audit_log(obs, nav, receiver_position_ecef_m=receiver_position_ecef_m, systems=systems,
                               elevation_mask_deg=elevation_mask_deg, fixes=fixes, precise=precise,
-                              weighting=weighting, rule=rule, receiver_clocks=receiver_clocks)
+                              weighting=weighting, rule=rule, receiver_clocks=receiver_clocks,
+                              frequencies=frequencies, smooth_code_s=smooth_code_s, fix_options=fix_options)
     summary = _audit.audit_summary(result, receiver_clock_verdict=receiver_clock_verdict)
     counted = None
     if precise is not None:     # the clocks apart only when clock files gave them

@@ -72,13 +72,18 @@ def receiver_verdict(name: str, audit_summary: dict | None, clock_check: dict | 
     fixes = (audit_summary or {}).get("receiver_fixes")
     position_hypothesis = fixes.get("closest") if fixes else None
     margin = fixes.get("margin_m") if fixes else None
-    if fixes and isinstance(margin, float) and margin < 0.5:
+    if fixes and not fixes.get("decided", isinstance(margin, float) and margin >= 0.5):
         position_hypothesis = None                     # the fixes cannot tell the hypotheses apart
+    margin_sigma = fixes.get("margin_sigma_m") if fixes else None
     clock_convention, clock_by_system = _clock_convention(clock_check)
     obs_k, obs_sigma = combined_k((audit_summary or {}).get("relativity_k", {}))
     findings = set(_clock_hypotheses(clock_check))
     if position_hypothesis:
         findings.add(position_hypothesis)
+    series = (audit_summary or {}).get("receiver_clock_series")
+    series_hypothesis = series.get("closest") if series and series.get("decided") else None
+    if series_hypothesis:
+        findings.add(series_hypothesis)
     faults = sorted(findings - {"applied"})
     tested = bool(findings)
     faulty = bool(faults) if tested else None
@@ -87,6 +92,8 @@ def receiver_verdict(name: str, audit_summary: dict | None, clock_check: dict | 
         where.append("fixes")
     if _clock_hypotheses(clock_check) - {"applied"}:
         where.append("satellite_clocks")
+    if series_hypothesis and series_hypothesis != "applied":
+        where.append("receiver_clock")
     fault = None
     if faults:
         fault = {"term": "sagnac" if faults == ["sagnac-omitted"] else "periodic",
@@ -94,7 +101,13 @@ def receiver_verdict(name: str, audit_summary: dict | None, clock_check: dict | 
                  "where": where}
     parts = []
     if fixes and fixes.get("closest"):
-        parts.append(f"fixes closest to '{fixes['closest']}', margin {margin:.2f} m")
+        sigma = f" +- {margin_sigma:.2f} m" if isinstance(margin_sigma, float) and math.isfinite(margin_sigma) else ""
+        parts.append(f"fixes {'closest to' if position_hypothesis else 'undetermined, nearest'} "
+                     f"'{fixes['closest']}', margin {margin:.2f} m{sigma}")
+    if series and series.get("closest"):
+        parts.append(f"receiver clock {'closest to' if series_hypothesis else 'undetermined, nearest'} "
+                     f"'{series['closest']}', margin {series['margin_ns'] or 0:.1f} ns "
+                     f"+- {series.get('margin_sigma_ns') or 0:.1f} ns")
     if clock_check:
         ks = ", ".join(f"{s} {fmt_k(clock_check['by_system'][s]['convention_k'], clock_check['by_system'][s]['convention_k_sigma'])}"
                        for s in in_system_order(clock_check["by_system"]))
@@ -108,7 +121,14 @@ def receiver_verdict(name: str, audit_summary: dict | None, clock_check: dict | 
     else:
         sentence = f"{name}: firmware consistent with the specifications{detail}"
     return {"faulty": faulty, "fault": fault, "position_hypothesis": position_hypothesis,
-            "fixes_margin_m": margin, "clock_convention": clock_convention,
+            "fixes_margin_m": margin, "fixes_margin_sigma_m": margin_sigma,
+            "receiver_clock_hypothesis": series_hypothesis, "clock_convention": clock_convention,
             "clock_convention_by_system": clock_by_system,
             "observations_relativity_k": obs_k, "observations_relativity_k_sigma": obs_sigma,
             "verdict": sentence}
+
+
+def firmware_at_fault(audit_summary: dict | None, clock_check: dict | None = None) -> bool:
+    """True when a receiver's fixes or clock table follow a wrong hypothesis (the verdict's ``faulty``);
+    False when consistent or not judged (no fixes, no clock table, fixes too close to call)."""
+    return receiver_verdict("", audit_summary, clock_check)["faulty"] is True

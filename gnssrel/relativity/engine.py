@@ -31,7 +31,7 @@ from __future__ import annotations
 import numpy as np
 import xarray as xr
 
-from gnssrel.constants import C_M_S, GM_EARTH_IERS_M3_S2, SECONDS_PER_DAY, SYSTEM_ORDER
+from gnssrel.constants import ALL_SYSTEM_ORDER, C_M_S, GM_EARTH_IERS_M3_S2, SECONDS_PER_DAY
 from gnssrel.relativity import rules
 from gnssrel.relativity.clock_terms import (
     j2_amplitude_s,
@@ -186,7 +186,7 @@ def relativity_summary(ds: xr.Dataset) -> dict:
             entry[key] = _max_abs_ns(decompose_runs(t_s, off - closed, labels)["periodic_s"])
         satellites[sv] = entry
     by_system = {}
-    for letter in sorted({sv[0] for sv in satellites}, key=lambda s: (SYSTEM_ORDER + s).index(s)):
+    for letter in sorted({sv[0] for sv in satellites}, key=lambda s: (ALL_SYSTEM_ORDER + s).index(s)):
         totals = np.array([v["rate_total"] for s, v in satellites.items() if s[0] == letter])
         by_system[letter] = {"median_rate_total": float(np.nanmedian(totals)),
                              "median_us_per_day_total": float(np.nanmedian(totals)) * US_PER_DAY,

@@ -1,4 +1,4 @@
-"""Write the report folder: report.html, each figure as PNG and SVG, tables as CSV, summary.json.
+"""Write the report folder: report.html, each figure as PNG, SVG and PDF, tables as CSV, summary.json.
 
 Everything is written into a temporary folder beside the target and renamed into
 place at the end, so a failed run leaves no half-written report (an earlier report
@@ -7,7 +7,6 @@ of the same name stays untouched until the new one is complete).
 
 from __future__ import annotations
 
-import io
 import os
 import shutil
 import tempfile
@@ -15,9 +14,8 @@ from pathlib import Path
 
 from gnssrel.errors import GnssrelInputError
 from gnssrel.io import writers
-from gnssrel.report.figures import build_figures, save_figure
+from gnssrel.report.figures import build_figures, page_png, save_figure
 from gnssrel.report.html import render_html
-from gnssrel.report.palette import gnssrel_style
 from gnssrel.report.tables import SHOWN_IN_HTML, report_tables
 
 __all__ = ["write_folder_atomically", "write_report", "write_report_files"]
@@ -29,10 +27,8 @@ def write_report_files(content, folder: Path, figures=None) -> dict:
     rendered = []
     for item in figures:
         files = save_figure(item, folder)
-        buffer = io.BytesIO()
-        with gnssrel_style():
-            item.figure.savefig(buffer, format="png")
-        rendered.append((item, buffer.getvalue(), {fmt: Path(p).name for fmt, p in files.items()}))
+        rendered.append((item, page_png(item, print_png=files.get("png")),
+                         {fmt: Path(p).name for fmt, p in files.items()}))
     tables = report_tables(content)
     for stem, (_, df) in tables.items():
         writers.write_table(df, folder / f"{stem}.csv")

@@ -14,7 +14,14 @@ from matplotlib.patches import Patch
 from matplotlib.ticker import FuncFormatter, MaxNLocator
 
 from gnssrel.constants import SYSTEM_ORDER
-from gnssrel.report.layout import ReportFigure, as_plot_times, gpst_axis, new_figure, panel_letter
+from gnssrel.report.layout import (
+    ReportFigure,
+    as_plot_times,
+    break_at_gaps,
+    gpst_axis,
+    new_figure,
+    panel_letter,
+)
 from gnssrel.report.palette import (
     HYPOTHESIS_LABELS,
     HYPOTHESIS_STYLES,
@@ -158,16 +165,6 @@ def pseudorange_residuals_m(corrections: pd.DataFrame) -> pd.Series:
     return per_epoch - per_epoch.groupby(c["system"]).transform("median")
 
 
-def _with_gaps(times, values, factor: float = 5.0):
-    """Plot times and values with a NaN where a step is longer than ``factor`` times the usual one."""
-    x = as_plot_times(times)
-    if x.size < 3:
-        return x, values
-    dx = np.diff(x)
-    cut = np.flatnonzero(dx > factor * np.median(dx)) + 1
-    return np.insert(x, cut, np.nan), np.insert(values, cut, np.nan)
-
-
 def satellite_figure(relativity: pd.DataFrame, residuals: pd.DataFrame, n_sats: int = 3) -> ReportFigure | None:
     """``relativity``: time, sv, periodic_icd_s (the network days); ``residuals``: time, sv, station,
     residual_m (every task)."""
@@ -198,7 +195,8 @@ def satellite_figure(relativity: pd.DataFrame, residuals: pd.DataFrame, n_sats: 
         for st, rows in mine.sort_values("time").groupby("station", sort=True):
             i = stations.index(st)
             shade = RECEIVER_SHADES[i] if i < MAX_RECEIVERS_DRAWN else MUTED
-            bottom.plot(*_with_gaps(rows["time"].to_numpy(), rows["residual_m"].to_numpy(float)), color=shade, linewidth=0.6,
+            bottom.plot(*break_at_gaps(as_plot_times(rows["time"].to_numpy()), rows["residual_m"].to_numpy(float),
+                                      factor=5.0), color=shade, linewidth=0.6,
                         marker="o", markersize=2.4, alpha=0.85)
         bottom.axhline(0.0, color=MUTED, linewidth=0.8)
         bottom.set_ylabel("pseudorange residual (m)" if j == 0 else "")

@@ -14,6 +14,7 @@ from gnssrel.clocks.convention import CANDIDATES
 from gnssrel.report.layout import (
     ReportFigure,
     as_plot_times,
+    break_at_gaps,
     gpst_axis,
     new_figure,
     panel_letter,
@@ -22,6 +23,14 @@ from gnssrel.report.layout import (
 )
 from gnssrel.report.palette import OWN, REFERENCE, system_colour, system_name
 from gnssrel.text import fmt_k
+
+GAP_FACTOR = 3.0
+"""A line stops where a satellite's series skips more than this many usual steps."""
+CANDIDATE_WORDS = {0: "excludes", 1: "includes", -1: "reversed", 2: "doubled"}
+
+
+def _signed(c: float) -> str:
+    return f"{int(c)}".replace("-", "−")
 
 
 def convention_rows(content) -> list[dict]:
@@ -49,8 +58,9 @@ def clocks_figure(content) -> ReportFigure | None:
     if table is not None and len(table):
         times = table["time"].to_numpy().astype("datetime64[ns]")
         for sv, group in table.groupby("sv", sort=True):
-            ax_series.plot(as_plot_times(group["time"].to_numpy()), group["residual_ns"].to_numpy(),
-                           color=system_colour(sv), linewidth=0.7, alpha=0.75)
+            xs, ys = break_at_gaps(as_plot_times(group["time"].to_numpy()), group["residual_ns"].to_numpy(),
+                                   factor=GAP_FACTOR)
+            ax_series.plot(xs, ys, color=system_colour(sv), linewidth=0.7)
         ax_series.axhline(0.0, color="#9AA0A8", linewidth=0.7)
         ax_series.set_ylabel("precise − broadcast − datum (ns)")
         ax_series.set_title("Precise minus broadcast clock, per satellite")
@@ -66,9 +76,8 @@ def clocks_figure(content) -> ReportFigure | None:
     y = np.arange(len(rows))[::-1]
     for c in CANDIDATES.values():
         ax_k.axvline(c, color=REFERENCE, linewidth=0.8, linestyle=(0, (4, 2)), zorder=1)
-        ax_k.text(c, len(rows) - 0.35, {0: "0\nexcludes", 1: "1\nincludes", -1: "−1\nreversed",
-                                        2: "2\ndoubled"}[int(c)], rotation=0, ha="center", va="bottom",
-                  fontsize=7, color=REFERENCE)
+    candidates = sorted(CANDIDATES.values())          # named on the axis, never over the dashed lines
+    ax_k.set_xticks(candidates, [f"{_signed(c)}\n{CANDIDATE_WORDS[int(c)]}" for c in candidates])
     for yy, row in zip(y, rows):
         colour = system_colour(row["system"])
         own = row["series"] != "precise product"
@@ -77,28 +86,33 @@ def clocks_figure(content) -> ReportFigure | None:
                       markeredgecolor=OWN if own else colour, ecolor=colour, capsize=3, zorder=3)
     ax_k.set_yticks(y)
     ax_k.set_yticklabels([f"{r['series']} · {system_name(r['system'])}" for r in rows], fontsize=7.5)
-    ax_k.set_ylim(-1.6, len(rows) + 0.6)
+    ax_k.set_ylim(-0.6, len(rows) - 0.4)
     ax_k.set_xlim(-1.5, 2.5)
-    ax_k.set_xlabel("factor k of the periodic term\n(dimensionless)")
+    ax_k.set_xlabel("factor k on the periodic term (dimensionless)", fontsize=8)
     ax_k.set_ylabel("clock series · system")
     ax_k.grid(axis="x", color="white")
     ax_k.set_title("Convention fit")
-    ax_k.legend(handles=[Line2D([], [], linestyle="none", marker="o", color="#555555", label="precise product"),
-                         Line2D([], [], linestyle="none", marker="D", color="#555555", markeredgecolor=OWN,
-                                markeredgewidth=1.4, label="receiver's own table")],
-                loc="lower right", fontsize=7)
+    kinds = [Line2D([], [], linestyle="none", marker="o", color="#555555", label="precise product")]
+    if any(r["series"] != "precise product" for r in rows):      # receivers' tables only when given
+        kinds.append(Line2D([], [], linestyle="none", marker="D", color="#555555", markeredgecolor=OWN,
+                            markeredgewidth=1.4, label="receiver's own table"))
+    ax_k.legend(handles=kinds, loc="upper center", bbox_to_anchor=(0.5, -0.2), fontsize=7, ncols=len(kinds),
+                borderaxespad=0.0, handletextpad=0.3, columnspacing=0.8)
     panel_letter(ax_k, "b" if ax_series.get_visible() else "a")
     listing = "; ".join(f"{r['series']} {r['system']}: k = {fmt_k(r['k'], r['sigma'])} "
                         f"({r['convention']})" for r in rows)
     source = content.clock_source or "the precise clocks"
+    own_text = ("; receivers' own tables as diamonds edged in vermilion"
+                if any(r["series"] != "precise product" for r in rows) else "")
     caption = (
         f"(a) Precise ({source}) minus broadcast satellite clock, per satellite and epoch, with the per-epoch "
         "datum of the product's time scale removed (alternating per-satellite mean and per-epoch median); "
         "the broadcast side excludes the periodic term, as IGS-style products do. (b) The fitted factor k of "
         "the periodic term F e √A sin E in each clock series and system (X − broadcast polynomial = offset + "
         "drift per satellite + k dt_r), with bars of ±3σ (σ: jackknife over satellites, honest about "
-        "time-correlated residuals; bars narrower than the marker are hidden by it; receivers' own tables as diamonds edged in vermilion). Dashed lines: the "
+        "time-correlated residuals; bars narrower than the marker are hidden by it"
+        f"{own_text}). Dashed lines: the "
         "candidates 0 (excludes the term), 1 (includes it), −1 (reversed), 2 (doubled). "
         f"{listing}. A correct receiver's own table includes the term (k = 1; IS-GPS-200 20.3.3.3.3.1). "
-        "Times GPST.")
+        "Lines stop where a satellite's series has a gap. Times GPST.")
     return ReportFigure("clock_convention", "Clocks: precise vs broadcast, convention", caption, fig)

@@ -34,7 +34,7 @@ def rates_figure(content) -> ReportFigure:
     colours = [system_colour(sv) for sv in svs]
     gps = [i for i, sv in enumerate(svs) if sats[sv].get("rate_residual_vs_nominal") is not None]
 
-    fig = new_figure(9.2, 6.4)
+    fig = new_figure(max(9.2, 2.2 + 0.088 * len(svs)), 6.4)       # a readable name per satellite
     top, bottom = fig.subplots(2, 1, height_ratios=(1.7, 1.0))
     for key, (marker, _) in PART_MARKERS.items():
         values = [sats[sv][key] for sv in svs]
@@ -85,7 +85,7 @@ def rates_figure(content) -> ReportFigure:
 
 def _satellite_ticks(ax, svs) -> None:
     ax.set_xticks(np.arange(len(svs)))
-    ax.set_xticklabels(svs, rotation=90, fontsize=6.5)
+    ax.set_xticklabels(svs, rotation=90, fontsize=6.5 if len(svs) <= 70 else 5.8)
     ax.set_xlim(-0.8, len(svs) - 0.2)
     ax.set_xlabel("satellite (RINEX name)")
     for tick, sv in zip(ax.get_xticklabels(), svs):

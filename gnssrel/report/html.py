@@ -6,11 +6,13 @@ import base64
 import html
 import math
 from importlib import resources
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
 
 from gnssrel import __version__
+from gnssrel.report.findings import CONSISTENT, FAULT, NOT_JUDGED, RESULT, report_findings
 from gnssrel.text import fmt_sigma
 
 CAUTION = (
@@ -27,6 +29,8 @@ REFERENCES = (
     "IERS Conventions (2010), IERS Technical Note 36, G. Petit and B. Luzum (eds.), chapters 10 and 11.",
     "N. Ashby (2003), Relativity in the Global Positioning System, Living Reviews in Relativity 6, 1.",
     "J. Kouba (2004), Improved relativistic transformations in GPS, GPS Solutions 8, 170-180.",
+    ("O. Montenbruck, P. Steigenberger, A. Hauschild (2015), Broadcast versus precise ephemerides: a "
+     "multi-GNSS perspective, GPS Solutions 19, 321-333 (signal-in-space range error)."),
 )
 
 
@@ -82,10 +86,26 @@ def table_html(df, max_rows: int = 40) -> str:
     return f"<table><thead><tr>{head}</tr></thead><tbody>{''.join(body)}</tbody></table>{more}"
 
 
-def _finding(r) -> str:
-    v = r.verdict
-    cls, tag = {True: ("faulty", "Fault"), False: ("correct", "Consistent"), None: ("", "Not judged")}[v.get("faulty")]
-    return f'<li class="{cls}"><span class="tag">{tag}.</span>{html.escape(v.get("verdict", r.name))}</li>'
+FINDING_LOOK = {FAULT: ("faulty", "Fault"), CONSISTENT: ("correct", "Consistent"), RESULT: ("result", "Result"),
+                NOT_JUDGED: ("not-judged", "Not judged")}
+"""Finding kind -> (CSS class, tag printed before the sentence)."""
+
+
+def findings_box(content) -> str:
+    """The findings box: verdicts, every result computed, then what could not be judged and why."""
+    items = []
+    for finding in report_findings(content):
+        cls, tag = FINDING_LOOK[finding.kind]
+        items.append(f'<li class="{cls}"><span class="tag">{tag}.</span>{html.escape(finding.text)}</li>')
+    if not items:
+        return ""
+    return "<h2 id='findings'>Findings</h2><ul class='findings'>" + "".join(items) + "</ul>"
+
+
+def _inputs_text(inputs: dict) -> str:
+    """'navigation: a.rnx, b.rnx; sp3: c.SP3': file names only (no local folders in a shared report)."""
+    return "; ".join(f"{kind.replace('_', ' ')}: {', '.join(Path(str(p)).name for p in paths)}"
+                     for kind, paths in inputs.items() if paths)
 
 
 def _accounting_section(content, df) -> str:
@@ -118,10 +138,7 @@ def render_html(content, figures: list[tuple], tables: dict, shown_tables=()) ->
              f"<div class='caution'><strong>Caution.</strong> {html.escape(CAUTION)}</div>"]
     if content.description:
         parts.append(f"<p class='lead'>{html.escape(content.description)}</p>")
-    if content.receivers:
-        parts.append("<h2 id='findings'>Findings</h2><ul class='findings'>")
-        parts += [_finding(r) for r in content.receivers]
-        parts.append("</ul>")
+    parts.append(findings_box(content))
     for note in content.notes:
         parts.append(f"<p class='csv'>Note: {html.escape(note)}</p>")
     parts.append("<nav class='contents'><ol>")
@@ -151,7 +168,6 @@ def render_html(content, figures: list[tuple], tables: dict, shown_tables=()) ->
     parts.append("<h2 id='references'>References</h2><ol class='references'>")
     parts += [f"<li>{html.escape(ref)}</li>" for ref in REFERENCES]
     parts.append("</ol>")
-    inputs = "; ".join(f"{k}: {', '.join(str(p) for p in v)}" for k, v in content.inputs.items() if v)
-    parts.append(f"<footer>Inputs — {html.escape(inputs)}. Times are GPST throughout. "
+    parts.append(f"<footer>Inputs — {html.escape(_inputs_text(content.inputs))}. Times are GPST throughout. "
                  f"Written by gnssrel {__version__}.</footer></main></body></html>")
     return "\n".join(parts)

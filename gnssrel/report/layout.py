@@ -7,9 +7,11 @@ and the scale in the axis label), so a reader never has to guess the scale.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from itertools import pairwise
 
 import matplotlib.dates as mdates
 import numpy as np
+from matplotlib.colors import to_hex, to_rgb
 from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
 
@@ -90,8 +92,26 @@ def label_line_ends(ax, x, lines, min_gap_fraction: float = 0.045) -> None:
     lo, hi = ax.get_ylim()
     gap = min_gap_fraction * (hi - lo)
     ends.sort(key=lambda e: e[0])
-    for a, b in zip(ends, ends[1:]):        # push upwards until each is a gap above the one below
+    for a, b in pairwise(ends):        # push upwards until each is a gap above the one below
         b[0] = max(b[0], a[0] + gap)
     pad = 0.004 * (x[-1] - x[0]) if len(x) > 1 else 0.0
     for y_text, x_end, text, colour, _ in ends:
         ax.text(x_end + pad, y_text, text, fontsize=7.5, color=colour, va="center", ha="left", clip_on=False)
+
+
+def tint(colour: str, amount: float) -> str:
+    """``colour`` mixed with white (``amount`` 0: the colour, 1: white), as an opaque colour: for
+    bands and fills, so that no system colour is ever drawn faded with alpha."""
+    rgb = np.array(to_rgb(colour))
+    return to_hex(rgb + (1.0 - rgb) * amount)
+
+
+def break_at_gaps(x, *ys, factor: float = 3.0):
+    """``x`` and each of ``ys`` with a NaN inserted where a step of ``x`` is longer than ``factor``
+    times the usual (median) step, so that lines stop at gaps instead of bridging them."""
+    x = np.asarray(x, float)
+    if x.size < 3:
+        return (x, *ys)
+    dx = np.diff(x)
+    cut = np.flatnonzero(dx > factor * np.median(dx)) + 1
+    return (np.insert(x, cut, np.nan), *(np.insert(np.asarray(y, float), cut, np.nan) for y in ys))

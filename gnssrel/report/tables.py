@@ -8,6 +8,7 @@ import pandas as pd
 from gnssrel.accounting import READ, USED, Ledger
 from gnssrel.report.fig_clocks import convention_rows
 from gnssrel.report.palette import system_name
+from gnssrel.text import fmt_k, in_system_order
 
 
 def relativity_table(content) -> pd.DataFrame:
@@ -52,6 +53,18 @@ def orbit_by_system(content) -> pd.DataFrame | None:
                          for s, e in content.orbit_summary["by_system"].items()])
 
 
+def sisre_table(content) -> pd.DataFrame | None:
+    """Signal-in-space range error per system (orbits/sisre.py; Montenbruck et al. 2015 form)."""
+    sisre = (content.orbit_summary or {}).get("sisre")
+    if not sisre:
+        return None
+    return pd.DataFrame([{"system": system_name(s), "satellites": e["n_sat"], "SISRE (m)": e["total_m"],
+                          "orbit part (m)": e["orbit_m"], "clock part (m)": e["clock_m"],
+                          "median mean radial (m), holds the antenna offset": e["median_mean_radial_m"],
+                          "2013-14, Montenbruck et al. 2015 (m)": e.get("published_2013_14_m")}
+                         for s, e in sisre.items()])
+
+
 def clock_by_system(content) -> pd.DataFrame | None:
     if not content.clock_summary:
         return None
@@ -70,23 +83,57 @@ def convention_table(content) -> pd.DataFrame | None:
                           "σ(k)": r["sigma"], "convention": r["convention"]} for r in rows])
 
 
+def _firmware_verdict(r) -> str:
+    """One column for the firmware: 'fault: omitted (fixes, satellite clocks)', 'consistent', or 'not judged
+    (why)'; never a 'not judged' beside a 'fault: none'."""
+    v = r.verdict or {}
+    if v.get("faulty") is True:
+        fault = v.get("fault") or {}
+        where = ", ".join(w.replace("_", " ") for w in fault.get("where", []))
+        return f"fault: {fault.get('mode', '?')}" + (f" ({where})" if where else "")
+    if v.get("faulty") is False:
+        return "consistent with the specifications"
+    if r.fixes_path and not ((r.audit_summary or {}).get("receiver_fixes") or {}).get("closest"):
+        return "not judged (no fix matched an epoch of the log)"
+    if r.fixes_path or r.clocks_path:
+        return "not judged (the fixes cannot tell the hypotheses apart)"
+    return "not judged (no fixes or clock table given)"
+
+
+def _fixes_follow(r) -> str:
+    fixes = (r.audit_summary or {}).get("receiver_fixes")
+    if not fixes:
+        return "–"
+    if not fixes.get("closest"):
+        return "no fix matched an epoch"
+    decided = (r.verdict or {}).get("position_hypothesis")
+    return decided if decided else f"undetermined (nearest: {fixes['closest']})"
+
+
 def receivers_table(content) -> pd.DataFrame | None:
+    """One row per receiver: the firmware verdict, what its fixes and clock table follow, the k fitted to
+    its log per system (with σ and status), its median position errors."""
     if not content.receivers:
         return None
+    letters = in_system_order({s for r in content.receivers
+                               for s in ((r.audit_summary or {}).get("relativity_k") or {})})
     rows = []
     for r in content.receivers:
-        v = r.verdict
-        pos = (r.audit_summary or {}).get("position", {})
-        rows.append({"receiver": r.name, "firmware faulty": {True: "yes", False: "no", None: "not judged"}
-                     [v.get("faulty")],
-                     "fault": (v.get("fault") or {}).get("mode", "none") if v.get("faulty") else "none",
-                     "fixes closest to": v.get("position_hypothesis") or "–",
-                     "fixes margin (m)": v.get("fixes_margin_m"),
-                     "clock-table convention": v.get("clock_convention") or "–",
-                     "log k (periodic term)": v.get("observations_relativity_k"),
-                     "σ(k)": v.get("observations_relativity_k_sigma"),
-                     "median 3-D error, term applied (m)": pos.get("median_error_3d_m"),
-                     "median 3-D error, term omitted (m)": pos.get("median_error_3d_m_without_periodic")})
+        v = r.verdict or {}
+        audit = r.audit_summary or {}
+        pos = audit.get("position", {})
+        fits = audit.get("relativity_k") or {}
+        row = {"receiver": r.name, "firmware": _firmware_verdict(r), "fixes follow": _fixes_follow(r),
+               "fixes margin (m)": v.get("fixes_margin_m") if (audit.get("receiver_fixes") or {}).get("closest")
+               else None,
+               "clock table follows": v.get("clock_convention") or "–"}
+        for s in letters:
+            f = fits.get(s)
+            row[f"k in the log, {system_name(s)}"] = (
+                f"{fmt_k(f['k'], f.get('sigma'))} ({str(f['status']).partition(':')[0]})" if f else "–")
+        row["median 3-D error, term applied (m)"] = pos.get("median_error_3d_m")
+        row["median 3-D error, term omitted (m)"] = pos.get("median_error_3d_m_without_periodic")
+        rows.append(row)
     return pd.DataFrame(rows)
 
 
@@ -116,6 +163,8 @@ def report_tables(content) -> dict[str, tuple[str, pd.DataFrame]]:
         "relativity_per_satellite": ("Relativity terms per satellite", relativity_table(content)),
         "orbits_by_system": ("Broadcast against precise orbits", orbit_by_system(content)),
         "orbits_per_satellite": ("Broadcast against precise orbits, per satellite", content.orbit_table),
+        "sisre_by_system": ("Signal-in-space range error (broadcast minus precise, as a user sees it)",
+                            sisre_table(content)),
         "clocks_by_system": ("Precise against broadcast clocks", clock_by_system(content)),
         "clock_conventions": ("Convention fits of every clock series", convention_table(content)),
         "accounting": ("Accounting: every record and observation read, used or dropped with a reason",
@@ -127,6 +176,6 @@ def report_tables(content) -> dict[str, tuple[str, pd.DataFrame]]:
     return {k: v for k, v in tables.items() if v[1] is not None and len(v[1])}
 
 
-SHOWN_IN_HTML = ("receivers", "relativity_by_system", "orbits_by_system", "clocks_by_system", "clock_conventions",
+SHOWN_IN_HTML = ("receivers", "relativity_by_system", "orbits_by_system", "sisre_by_system", "clocks_by_system", "clock_conventions",
                  "accounting")
 """Tables printed in the HTML; the long ones are linked as CSV only."""

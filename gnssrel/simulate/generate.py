@@ -16,7 +16,7 @@ from gnssrel import __version__
 from gnssrel.errors import GnssrelInputError
 from gnssrel.geodesy import ecef_to_geodetic
 from gnssrel.io.writers import write_json
-from gnssrel.simulate import truth
+from gnssrel.simulate import lowcost, truth
 from gnssrel.simulate.firmware import firmware_fixes
 from gnssrel.simulate.observe import simulate_observables
 from gnssrel.simulate.scenario import (
@@ -92,12 +92,16 @@ def check_span(hours: float, interval_s: float) -> None:
 
 
 def write_scenario(output_dir, seed: int = DEFAULT_SEED, hours: float = 3.0, interval_s: float = 30.0,
-                   start=DEFAULT_START_GPST) -> dict:
-    """Generate and write the scenario under ``output_dir`` (created if needed); returns the manifest."""
+                   start=DEFAULT_START_GPST, receivers: str = "geodetic") -> dict:
+    """Generate and write the scenario under ``output_dir`` (created if needed); returns the manifest.
+    ``receivers``: "geodetic" (the demo's two dual-frequency receivers) or "low-cost" (two
+    single-frequency modules, :mod:`gnssrel.simulate.lowcost`)."""
     check_span(hours, interval_s)
     out = Path(output_dir)
     out.mkdir(parents=True, exist_ok=True)
     scn = build_scenario(seed=seed, start=start, hours=hours, interval_s=interval_s)
+    if receivers == "low-cost":
+        return _write_low_cost(out, scn, seed)
     rng = np.random.default_rng([seed, 1])
     names = file_names(scn)
     date = creation_date(scn)
@@ -105,6 +109,31 @@ def write_scenario(output_dir, seed: int = DEFAULT_SEED, hours: float = 3.0, int
     receivers = [write_receiver(out, scn, rcv, names, date, rng) for rcv in scn.receivers]
 
     manifest = scenario_manifest(scn, names, receivers, ephemerides)
+    os.chmod(write_json(manifest, out / "scenario.json"), 0o644)
+    return manifest
+
+
+def _write_low_cost(out: Path, scn, seed: int) -> dict:
+    """The products and two low-cost modules (correct, faulty) instead of the geodetic receivers."""
+    scn.receivers = lowcost.low_cost_receivers(scn)
+    rng = np.random.default_rng([seed, 2])
+    names = {k: v for k, v in file_names(scn).items() if not k.endswith(":satellite_clocks") and not k.endswith(":fixes")}
+    for rcv in scn.receivers:
+        names.update(lowcost.file_names(rcv, names[f"{rcv.marker}:observations"]))
+    date = creation_date(scn)
+    ephemerides = write_products(out, scn, names, date)
+    header = {"program": PROGRAM, "run_by": SURVEY_OFFICE, "date": date, "comments": [NOTICE],
+              "observer": "FIELD CREW 3", "agency": SURVEY_OFFICE, "interval_s": scn.interval_s,
+              "leap_seconds": LEAP_SECONDS}
+    receivers = [lowcost.write_low_cost_receiver(out, scn, rcv, names, header, rng) for rcv in scn.receivers]
+    manifest = scenario_manifest(scn, names, receivers, ephemerides)
+    manifest["title"] = "Invented GNSS scenario with two low-cost receivers (not real data)"
+    site = lowcost.ROOF
+    manifest["sites"] = [{"marker": site.marker, "place": site.place, "lat_deg": site.lat_deg,
+                          "lon_deg": site.lon_deg, "height_m": site.height_m,
+                          "geoid_separation_m": site.geoid_separation_m, "position_ecef_m": site.position_ecef_m}]
+    manifest["models"] = {**{k: v for k, v in manifest["models"].items() if k.startswith("true_")},
+                          "low_cost_receivers": lowcost.MODELS, "elevation_mask_deg": 10.0}
     os.chmod(write_json(manifest, out / "scenario.json"), 0o644)
     return manifest
 

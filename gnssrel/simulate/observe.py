@@ -34,8 +34,12 @@ PHASE_NOISE_M = 0.002
 
 
 def receiver_clock_s(scn, rcv, t_gpst) -> np.ndarray:
-    """Receiver clock offset (s) at GPST times: offset + drift since the scenario start."""
-    return rcv.clock_offset_s + rcv.clock_drift_s_per_s * seconds_between(t_gpst, scn.start)
+    """Receiver clock offset (s) at GPST times: offset + drift since the scenario start, plus the
+    receiver's clock steps (``clock_steps_s``: (seconds after the start, step s) pairs; none for
+    the geodetic receivers; a low-cost one resets by 1 ms, :mod:`gnssrel.simulate.lowcost`)."""
+    since = seconds_between(t_gpst, scn.start)
+    steps = sum(step * (since >= at) for at, step in getattr(rcv, "clock_steps_s", ()))
+    return rcv.clock_offset_s + rcv.clock_drift_s_per_s * since + steps
 
 
 def group_delay_s(scn, letter_per_sat: np.ndarray, band_index: int) -> np.ndarray:
@@ -77,17 +81,23 @@ def ionosphere_l1_m(scn, g) -> np.ndarray:
                                   KLOBUCHAR_ALPHA, KLOBUCHAR_BETA)
 
 
+def common_range_m(scn, rcv, g, letter) -> np.ndarray:
+    """The part of code and phase every signal shares (n_t, n_sat), m: light time, receiver clock
+    and inter-system bias minus the true satellite clock, troposphere, Shapiro."""
+    dt_sat = truth.true_clock_s(scn, g["t_tx"], g["eccentric_anomaly_rad"])
+    isb = np.array([rcv.inter_system_bias_s[c] for c in letter])
+    clock_m = C_M_S * (receiver_clock_s(scn, rcv, scn.epochs)[:, None] + isb - dt_sat)
+    return C_M_S * g["tau_s"] + clock_m + troposphere_m(g["lat"], g["h"], g["el"]) \
+        + shapiro_m(rcv.site.position_ecef_m, g["sat_rx_frame_m"])
+
+
 def simulate_observables(scn, rcv, rng: np.random.Generator) -> dict:
     """Observable arrays (n_t, n_sat), NaN below the elevation mask, keyed by RINEX code."""
     g = geometry(scn, rcv)
     sv = scn.sv
     letter = np.array([s[0] for s in sv])
     visible = g["el"] >= ELEVATION_MASK_RAD
-    dt_sat = truth.true_clock_s(scn, g["t_tx"], g["eccentric_anomaly_rad"])
-    isb = np.array([rcv.inter_system_bias_s[c] for c in letter])
-    clock_m = C_M_S * (receiver_clock_s(scn, rcv, scn.epochs)[:, None] + isb - dt_sat)
-    common_m = C_M_S * g["tau_s"] + clock_m + troposphere_m(g["lat"], g["h"], g["el"]) \
-        + shapiro_m(rcv.site.position_ecef_m, g["sat_rx_frame_m"])
+    common_m = common_range_m(scn, rcv, g, letter)
     iono_l1_m = ionosphere_l1_m(scn, g)
     el_deg = np.degrees(g["el"])
     code_sigma = CODE_NOISE_M * (1.0 + 2.0 * np.exp(-el_deg / 15.0))

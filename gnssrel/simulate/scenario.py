@@ -129,20 +129,21 @@ def _constellation(rng: np.random.Generator) -> list[dict]:
             e = rng.uniform(0.002, 0.018)
             add(f"G{next(prn):02d}", rng.normal(5153.65, 0.05), e, rng.normal(55.0, 0.6),
                 60.0 * plane + rng.normal(0, 1.5), 90.0 * slot + 15.0 * plane + rng.normal(0, 4))
-    # G15 on a markedly eccentric orbit: a big periodic term (~100 ns).
-    sats[13]["e"] = 0.047
+    # G15: the most eccentric GPS orbit, e = 0.02 as the most eccentric real ones (from memory, common
+    # knowledge of the constellation): periodic term amplitude F e sqrt(A) = 4.44e-10 * 0.02 * 5153.65 = 45.8 ns.
+    sats[13]["e"] = 0.02
     prn_e = iter([1, 2, 3, 4, 5, 7, 8, 9, 10, 11, 12, 13, 15, 19, 21, 24, 26, 27])
     for plane in range(3):
         for slot in range(6):
-            add(f"E{next(prn_e):02d}", rng.normal(5440.61, 0.03), rng.uniform(0.0002, 0.0025),
+            add(f"E{next(prn_e):02d}", rng.normal(5440.61, 0.03), rng.uniform(0.0002, 0.001),
                 rng.normal(56.0, 0.3), 120.0 * plane + rng.normal(0, 1.0),
                 60.0 * slot + 20.0 * plane + rng.normal(0, 3))
-    sats[24 + 16]["e"] = 0.072  # E26: an eccentric Galileo orbit as well (~170 ns periodic term)
+    # Galileo e 0.0002-0.001 as the nominal constellation (the eccentric E14/E18 are not in the demo)
     for k, p in enumerate((19, 20, 21, 22, 23, 24)):
-        add(f"C{p}", rng.normal(5282.62, 0.04), rng.uniform(0.0005, 0.003), rng.normal(55.0, 0.4),
+        add(f"C{p}", rng.normal(5282.62, 0.04), rng.uniform(0.001, 0.005), rng.normal(55.0, 0.4),
             120.0 * (k // 2) + 40.0, 180.0 * (k % 2) + 45.0 * (k // 2) + rng.normal(0, 3))
     for k, p in enumerate((38, 39, 40)):
-        add(f"C{p}", rng.normal(6493.45, 0.05), rng.uniform(0.002, 0.008), rng.normal(55.0, 0.5),
+        add(f"C{p}", rng.normal(6493.45, 0.05), rng.uniform(0.001, 0.005), rng.normal(55.0, 0.5),
             None, 120.0 * k + rng.normal(0, 3))
     return sats
 

@@ -54,7 +54,7 @@ def preload() -> list[str]:
     for lib in ("numpy", "pandas", "xarray", "scipy.interpolate", "pyarrow.parquet", "hatanaka", "unlzw3"):
         try:
             importlib.import_module(lib)
-        except Exception as exc:
+        except Exception as exc:  # noqa: BLE001 -- any failure to import is the finding
             failed.append(f"{lib}: {type(exc).__name__}: {exc}")
     for info in pkgutil.walk_packages(gnssrel.__path__, "gnssrel."):
         if info.name.startswith(("gnssrel.__main__", "gnssrel.report", "gnssrel.simulate", "gnssrel.jobs.report",
@@ -62,7 +62,7 @@ def preload() -> list[str]:
             continue
         try:
             importlib.import_module(info.name)
-        except Exception as exc:
+        except Exception as exc:  # noqa: BLE001 -- any failure to import is the finding
             failed.append(f"{info.name}: {type(exc).__name__}: {exc}")
     return failed
 
@@ -86,8 +86,8 @@ def _child(argv, case_dir: str, memory_limit: int) -> None:
         os.close(target)
     # A parent under pytest has replaced sys.stdout/err and given the root logger handlers:
     # give the child plain streams on fds 1 and 2 and an unconfigured logging, as a shell would.
-    sys.stdout = open(1, "w", closefd=False, encoding="utf-8", errors="backslashreplace")
-    sys.stderr = open(2, "w", closefd=False, encoding="utf-8", errors="backslashreplace")
+    sys.stdout = open(1, "w", closefd=False, encoding="utf-8", errors="backslashreplace")  # noqa: SIM115
+    sys.stderr = open(2, "w", closefd=False, encoding="utf-8", errors="backslashreplace")  # noqa: SIM115
     import logging
 
     root = logging.getLogger()
@@ -106,7 +106,7 @@ def _child(argv, case_dir: str, memory_limit: int) -> None:
         code = cli.main(list(argv))
     except SystemExit as exc:       # argparse refusing an option
         code = exc.code if isinstance(exc.code, int) else 1
-    except BaseException:
+    except BaseException:  # noqa: BLE001 -- the campaign records every escape as a crash
         traceback.print_exc()
         code = 1
     finally:
@@ -313,5 +313,5 @@ def unbalanced(summary: dict | None) -> list[str]:
         from gnssrel.accounting import Ledger
 
         return Ledger.from_dict(acc).unbalanced()
-    except Exception as exc:
+    except Exception as exc:  # noqa: BLE001 -- an unreadable ledger is the finding
         return [f"accounting unreadable: {type(exc).__name__}: {exc}"]
