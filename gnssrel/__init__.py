@@ -7,6 +7,7 @@ The analysis, stage by stage (each takes and returns the data model of DEVELOPER
     obs = gnssrel.read_observations("SITE.crx.gz")         # xarray (time, sv), one variable per observable
     sp3 = gnssrel.read_sp3(["A.SP3", "B.SP3"])              # xarray: position_ecef_m, clock_s
     clk = gnssrel.read_rinex_clock("A.CLK")                 # xarray: clock_s (time, sv)
+    atx = gnssrel.read_antex("igs20.atx")                   # AntexData: .satellite(prn, t), .receiver(type)
     states = gnssrel.broadcast_states(nav, obs.time.values)  # positions, velocities, status (time, sv)
     precise = gnssrel.precise_states(sp3, obs.time.values)  # the same, interpolated from SP3
     terms = gnssrel.relativity_terms(states, nav)           # periodic, J2, rates, proper time (time, sv)
@@ -16,7 +17,7 @@ The analysis, stage by stage (each takes and returns the data model of DEVELOPER
     content = gnssrel.analyse(["BRDC.rnx"], obs_paths=["SITE.crx.gz"])  # the whole chain on files
     gnssrel.write_report(content, "report-folder")          # HTML, figures, tables, summary.json
 
-Stages: read_navigation, read_observations, read_sp3, read_rinex_clock (readers);
+Stages: read_navigation, read_observations, read_sp3, read_rinex_clock, read_antex (readers);
 broadcast_states, precise_states (orbits); relativity_terms, relativity_summary
 (relativity); compare_clocks (clocks); audit_log (a receiver log); analyse (all of
 them on files); write_report (the HTML report).
@@ -45,6 +46,7 @@ _PUBLIC = {
     "read_observations": "gnssrel.io.rinex_obs",
     "read_sp3": "gnssrel.io.sp3",
     "read_rinex_clock": "gnssrel.io.rinex_clock",
+    "read_antex": "gnssrel.io.antex",
     "broadcast_states": "gnssrel.orbits.broadcast",
     "precise_states": "gnssrel.orbits.precise",
     "relativity_terms": "gnssrel.pipeline.stages",
@@ -57,7 +59,7 @@ _PUBLIC = {
 """Public name -> the module that defines it."""
 
 __all__ = ["__version__", "analyse", "audit_log", "broadcast_states", "compare_clocks", "precise_states",
-           "read_navigation", "read_observations", "read_rinex_clock", "read_sp3", "relativity_summary",
+           "read_antex", "read_navigation", "read_observations", "read_rinex_clock", "read_sp3", "relativity_summary",
            "relativity_terms", "write_report"]
 
 

@@ -17,7 +17,7 @@ from gnssrel import __version__, progress
 from gnssrel.errors import GnssrelInputError
 
 # Subcommand name -> module in gnssrel.jobs, in the order `--help` lists them.
-JOBS = ("orbits", "relativity", "clocks", "audit", "campaign", "report", "demo", "simulate", "info")
+JOBS = ("orbits", "relativity", "clocks", "audit", "survey", "campaign", "report", "demo", "simulate", "info")
 
 EXIT_OK, EXIT_INTERNAL, EXIT_BAD_INPUT = 0, 1, 2
 EXIT_SOME_FAILED = 3        # gnssrel.jobs.campaign.EXIT_SOME_FAILED (not imported: --help stays light)

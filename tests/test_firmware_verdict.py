@@ -48,7 +48,7 @@ def test_noisy_receiver_decided_where_the_per_epoch_median_is_not():
     assert out["closest"] == "applied" and out["decided"] is True
     assert out["margin_m"] > 3 * out["margin_sigma_m"] and out["margin_m"] > 0.5
     assert out["p_reversed"] < 1e-3
-    assert out["verdict"].startswith("closest to 'applied'") and "+-" in out["verdict"]
+    assert out["verdict"].startswith("closest to 'applied'") and "±" in out["verdict"]
     assert out["n_common"] == 1800 and out["method"] == "RMS over the log"
     # its own sigma is right: over independent repetitions the margin scatters by about it (derived)
     margins = [firmware.compare_with_hypotheses(*_scenario(1800, 4.0, 1.5, seed=s))["margin_m"] for s in range(2, 14)]
@@ -73,7 +73,7 @@ def test_a_decided_faulty_verdict_names_the_fault_with_its_uncertainty():
     verdict = receiver_verdict("LC02", {"receiver_fixes": out}, None)
     assert verdict["faulty"] is True and verdict["fault"]["where"] == ["fixes"]
     assert verdict["fixes_margin_sigma_m"] == out["margin_sigma_m"]
-    assert "applies the periodic relativistic term twice" in verdict["verdict"] and " +- " in verdict["verdict"]
+    assert "applies the periodic relativistic term twice" in verdict["verdict"] and " ± " in verdict["verdict"]
 
 
 def test_effective_sample_size_of_white_and_correlated_noise():

@@ -16,7 +16,7 @@ PACKAGE = Path(__file__).resolve().parents[1] / "gnssrel"
 
 BASE = ("constants", "errors", "timescales", "signals", "geodesy", "accounting", "progress", "text", "systems")
 """Shared modules every stage may use (gnssrel/<name>.py); they import only each other."""
-LAYERS = {"io": 1, "simulate": 1.5, "orbits": 2, "relativity": 3, "clocks": 4, "audit": 5, "pipeline": 6,
+LAYERS = {"io": 1, "simulate": 1.5, "orbits": 2, "relativity": 3, "clocks": 4, "audit": 5, "survey": 5.5, "pipeline": 6,
           "report": 7, "campaign": 7.5, "jobs": 8, "cli": 9, "__main__": 9}
 """io -> orbits -> relativity -> clocks -> audit -> pipeline -> report -> jobs/cli.  The simulator
 sits just above io: it shares only the base modules and the writers, never the stages it checks."""

@@ -22,7 +22,7 @@ NAV = SAMPLE_LOGS / "KVRP00ZZZ_R_20251621000_03H_MN.rnx"
 OBS = SAMPLE_LOGS / "KVRP00ZZZ_R_20251621000_03H_30S_MO.rnx"
 SP3 = SAMPLE_LOGS / "KVA0DEMFIN_20251620830_06H_15M_ORB.SP3"
 CLK = SAMPLE_LOGS / "KVA0DEMFIN_20251621000_03H_30S_CLK.CLK"
-STAGES = ("read_navigation", "read_observations", "read_sp3", "read_rinex_clock", "broadcast_states",
+STAGES = ("read_navigation", "read_observations", "read_sp3", "read_rinex_clock", "read_antex", "broadcast_states",
           "precise_states", "relativity_terms", "relativity_summary", "compare_clocks", "audit_log",
           "analyse", "write_report")
 

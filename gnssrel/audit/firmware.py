@@ -122,7 +122,7 @@ def compare_with_hypotheses(fixes: pd.DataFrame, positions_by_hypothesis: dict[s
     decided = bool(m["z"] > N_SIGMA and margin > min_margin_m)
     text = (f"RMS distance of the fixes from '{best}' {rms[best]:.2f} m (mean offset "
             f"{np.linalg.norm(means[best]):.2f} m), from '{second}' {rms[second]:.2f} m: margin {margin:.2f} m "
-            f"+- {sigma:.2f} m (z = {min(m['z'], 999):.1f}) over {int(keep.sum())} fixes "
+            f"± {sigma:.2f} m (z = {min(m['z'], 999):.1f}) over {int(keep.sum())} fixes "
             f"({m['n_effective']:.0f} independent)")
     verdict = (f"closest to '{best}': {text}" if decided else
                f"undetermined: {text}: needs z > {N_SIGMA:g} and a margin over {min_margin_m:g} m")

@@ -272,13 +272,35 @@ def signal_strengths(obs_ds, obs: dict) -> dict[str, np.ndarray]:
     return out
 
 
+def _to_phase_centre(st: dict, precise: dict, system: str, codes, sv, t) -> None:
+    """Move the precise transmit-time positions of ``st`` (in place) from the centre of mass to the
+    phase centre of ``codes``; record the offsets in ``precise["antenna_offsets"]``."""
+    from gnssrel.orbits.antenna import antex_codes, observation_offsets, shift_to_phase_centre_m
+
+    ledger = precise.setdefault("antenna_ledger", Ledger())
+    t_mid = t[t.size // 2]
+    offsets, missing = observation_offsets(precise["antex"], system, codes, np.unique(sv), t_mid, ledger)
+    body = np.array([offsets.get(name, (np.nan,) * 3) for name in sv], dtype=float).reshape(-1, 3)
+    t_tx = t + np.round(np.nan_to_num(st["transmit_offset_s"]) * 1e9).astype("timedelta64[ns]")
+    st["position_ecef_m"] = st["position_ecef_m"] + shift_to_phase_centre_m(st["position_ecef_m"], t_tx, body)
+    precise.setdefault("antenna_offsets", {})[system] = {
+        "codes": "+".join(codes), "antex_codes": "/".join(antex_codes(system, codes)),
+        "offsets_body_m": {name: [float(v) for v in o] for name, o in offsets.items()}, "missing": missing}
+
+
 def prepare_observations(obs_ds, nav, systems=None, include_unhealthy: bool = False, precise=None,
                          rule: str = "post", code_options: dict | None = None) -> dict:
     """Flat per-observation arrays with transmit time, satellite state and clock terms.
 
     ``nav``: a ``NavigationData`` (records for the choice of group delays and, without
     ``precise``, the orbits and clocks).  ``precise``: None, or a mapping with ``orbits``
-    (an SP3 Dataset) and ``clocks`` (a Dataset with ``clock_s``: the SP3 or a RINEX clock file).
+    (an SP3 Dataset) and ``clocks`` (a Dataset with ``clock_s``: the SP3 or a RINEX clock file),
+    and optionally ``antex`` (an ``AntexData``, ``--antex``): the precise positions (centre of
+    mass) are then moved to the phase centre of the code pair (or single code) each system's
+    pseudoranges use (:func:`gnssrel.orbits.antenna.observation_offsets`), and what was applied
+    is written back to ``precise["antenna_offsets"]`` ({letter: {"codes", "antex_codes",
+    "offsets_body_m", "missing"}}), each satellite without an offset warned in
+    ``precise["antenna_ledger"]`` (a Ledger the caller merges).
     ``rule``: the record-selection rule, ``"post"`` or ``"receiver"`` (:mod:`gnssrel.orbits.selection`).
     ``code_options``: keywords of :func:`select_pseudoranges` (``frequencies``, ``smooth_code_s``).
     """
@@ -311,6 +333,8 @@ def prepare_observations(obs_ds, nav, systems=None, include_unhealthy: bool = Fa
         else:
             rows, _ = satellites.choose_records(eph, system, sv, t, include_unhealthy, rule=rule)
             st = satellites.precise_at_transmit(precise["orbits"], precise["clocks"], system, sv, t, p)
+            if precise.get("antex") is not None:
+                _to_phase_centre(st, precise, system, obs["code"][idx[0]].split("+"), sv, t)
         for key, source in _FIELDS.items():
             obs[key][idx] = st[source]
         obs["ephemeris_row"][idx] = rows

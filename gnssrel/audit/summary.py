@@ -182,7 +182,7 @@ def clock_table_verdict(check: dict) -> str:
     """One line from the clock-table check: the status and k of each system."""
     def k_text(k, sigma):
         k = 0.0 if abs(k) < 5e-4 else k             # no "-0.000"
-        return f"{k:.3f} (sigma < 0.001)" if sigma < 1e-3 else f"{k:.3f} +- {sigma:.3f}"
+        return f"{k:.3f} (sigma < 0.001)" if sigma < 1e-3 else f"{k:.3f} ± {sigma:.3f}"
 
     parts = [f"{s} {e['status']} (k = {k_text(e['convention_k'], e['convention_k_sigma'])}, "
              f"expected {e['expected_k']:g})" for s, e in check["by_system"].items()]

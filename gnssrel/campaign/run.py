@@ -22,7 +22,7 @@ from gnssrel import progress
 from gnssrel.campaign.network import network_days, run_network_day
 from gnssrel.campaign.task import BLAS_VARIABLES, content_hash, read_task_summary, run_station_day
 
-__all__ = ["campaign_summary", "campaign_table", "execute", "prepare"]
+__all__ = ["campaign_summary", "campaign_table", "execute", "prepare", "survey_repeatability"]
 
 log = logging.getLogger(__name__)
 TASKS_FOLDER = "tasks"
@@ -198,7 +198,37 @@ def campaign_row(summary: dict) -> dict:
     row["receiver_fixes_follow"] = fixes.get("closest")
     verdict = summary.get("receiver_verdict")
     row["receiver_verdict"] = verdict if verdict is None or isinstance(verdict, str) else str(verdict)
+    survey = summary.get("survey")
+    if survey is not None:               # campaign --survey only: the default table keeps its columns
+        row["survey_status"], row["survey_reason"] = survey.get("status"), survey.get("reason")
+        for c in ("east", "north", "up"):
+            row[f"survey_{c}_m"] = survey.get(f"{c}_m")
     return row
+
+
+def survey_repeatability(summaries) -> dict:
+    """Per station, over its station-days with a survey: ``n_days`` and the standard deviation (ddof 1)
+    of the daily east/north/up, mm, about the station's mean position (in the local frame at that mean;
+    None with fewer than two days)."""
+    import numpy as np  # deferred: as pandas in campaign_table
+
+    from gnssrel.geodesy import ecef_to_enu, ecef_to_geodetic
+
+    by_station: dict = {}
+    for s in summaries:
+        survey = s.get("survey") or {}
+        if s.get("kind") != "network-day" and survey.get("status") == "ok":
+            by_station.setdefault(s["station"], []).append([survey["x_m"], survey["y_m"], survey["z_m"]])
+    out = {}
+    for station, xyz in sorted(by_station.items()):
+        xyz = np.asarray(xyz, float)
+        mean = xyz.mean(axis=0)
+        lat, lon, _ = ecef_to_geodetic(mean)
+        enu = ecef_to_enu(xyz - mean, lat, lon) * 1000.0
+        std = enu.std(axis=0, ddof=1) if len(xyz) > 1 else np.full(3, np.nan)
+        out[station] = {"n_days": len(xyz), **{f"{c}_mm": (round(float(v), 2) if np.isfinite(v) else None)
+                                               for c, v in zip(("east", "north", "up"), std)}}
+    return out
 
 
 def campaign_table(summaries):
@@ -241,6 +271,11 @@ def campaign_summary(summaries, n_skipped: int, extra: dict | None = None) -> di
             "skipped": bool(s.get("_skipped")),
             "content_hash": s.get("content_hash"),
         })
+        if s.get("survey") is not None:          # campaign --survey only
+            tasks[-1]["survey"] = {k: v for k, v in s["survey"].items() if k != "term_effects_mm"}
     n_ok = sum(t["status"] == "ok" for t in tasks)
-    return {"n_tasks": len(tasks), "n_ok": n_ok, "n_failed": len(tasks) - n_ok, "n_skipped": n_skipped,
-            "tasks": tasks, "network": network, **(extra or {})}
+    out = {"n_tasks": len(tasks), "n_ok": n_ok, "n_failed": len(tasks) - n_ok, "n_skipped": n_skipped,
+           "tasks": tasks, "network": network}
+    if any("survey" in t for t in tasks):
+        out["survey_repeatability"] = survey_repeatability(summaries)
+    return {**out, **(extra or {})}

@@ -6,7 +6,8 @@
 and the summary as JSON into ``DIR/tasks/<station>_<date>/``, each file atomically and the
 summary last (it carries the content hash: a rerun trusts a task folder only through it),
 and returns the task's row of the campaign summary.  A bad input costs its task only: the
-error's one line becomes the task's ``reason``.
+error's one line becomes the task's ``reason``.  With the ``survey`` option the same task also
+runs the survey stage (:func:`survey_station_day`, the function of ``gnssrel survey``).
 """
 
 from __future__ import annotations
@@ -19,13 +20,16 @@ from pathlib import Path
 from gnssrel import __version__
 from gnssrel.errors import GnssrelInputError
 
-__all__ = ["BLAS_VARIABLES", "SUMMARY_NAME", "TABLE_NAMES", "content_hash", "guarded", "read_task_summary",
-           "run_station_day"]
+__all__ = ["BLAS_VARIABLES", "SUMMARY_NAME", "SURVEY_NAME", "TABLE_NAMES", "content_hash", "guarded",
+           "read_task_summary", "run_station_day", "survey_station_day"]
 
 BLAS_VARIABLES = ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS")
 """One BLAS thread per worker process: the matrices are small and a worker already has a core."""
 SUMMARY_NAME = "summary.json"
 TABLE_NAMES = ("corrections.parquet", "positions.parquet")
+SURVEY_NAME = "survey.json"
+"""The whole summary of the survey stage (``campaign --survey``), beside the audit's."""
+SURVEY_NEEDS = "no precise orbits (SP3) and RINEX clock file for this station-day: the survey needs both"
 HASH_CHUNK = 1 << 20
 
 
@@ -73,7 +77,7 @@ def run_station_day(spec: dict, options: dict, task_dir: str, digest: str) -> di
 
     ``spec``: a StationDay as a dict (station, date, obs, nav, precise, fixes, clocks, missing);
     ``options``: ``systems`` (letters or None), ``rule``, ``step_s`` (None keeps every epoch),
-    ``elevation_mask_deg``; ``digest``: :func:`content_hash` of both, recorded with the result.
+    ``elevation_mask_deg``, ``survey`` (True: also :func:`survey_station_day`); ``digest``: :func:`content_hash` of both, recorded with the result.
     """
     return guarded(_audit, spec, options, task_dir, digest)
 
@@ -147,4 +151,46 @@ def _audit(spec: dict, options: dict, task_dir: Path) -> dict:
     task_dir.mkdir(parents=True, exist_ok=True)
     writers.write_table(audited.corrections, task_dir / TABLE_NAMES[0])
     writers.write_table(audited.position_errors(), task_dir / TABLE_NAMES[1])
+    if options.get("survey"):
+        summary["survey"] = survey_station_day(spec, options, task_dir, nav, precise)
     return summary
+
+
+def survey_station_day(spec: dict, options: dict, task_dir: Path, nav, precise) -> dict:
+    """The survey stage of one station-day (``campaign --survey``): :func:`gnssrel.survey.static.survey`,
+    the function ``gnssrel survey`` calls, on the same files; its whole summary goes to
+    ``task_dir/SURVEY_NAME``.  Returns the short record of the task summary: ``status`` "ok" with the
+    marker position (ECEF and minus the header, m), its sigmas and the term effects (mm), or "refused"
+    with the one-line ``reason`` (no precise SP3 + RINEX clock, no dual-frequency phase, arcs too short):
+    a refusal costs the survey only, the audit of the station-day stays ok."""
+    # deferred: as _audit (xarray, scipy), and only with --survey
+    from gnssrel.accounting import Ledger
+    from gnssrel.io import writers
+    from gnssrel.io.rinex_obs import read_observations
+    from gnssrel.pipeline.grid import decimate_to_step
+    from gnssrel.survey.static import survey
+
+    if not precise or not precise.get("clock_files"):
+        return {"status": "refused", "reason": SURVEY_NEEDS}
+    letters = "".join(s for s in (options.get("systems") or "GE") if s in "GE")
+    if not letters:
+        return {"status": "refused", "reason": "the survey uses GPS and Galileo only, neither is selected"}
+    try:     # read again with the loss-of-lock flags (arcs); the audit's reading stays as without --survey
+        obs = decimate_to_step(read_observations(spec["obs"], systems=list(letters), with_flags=True),
+                               options.get("step_s"))
+        result = survey(obs, nav, precise, systems=letters, ledger=Ledger.from_dict(obs.attrs.get("accounting")),
+                        elevation_mask_deg=options.get("elevation_mask_deg", 10.0))
+    except GnssrelInputError as exc:
+        return {"status": "refused", "reason": str(exc)}
+    except Exception as exc:  # noqa: BLE001 -- costs the survey of this station-day only, named in one line
+        return {"status": "failed", "reason": f"internal error: {type(exc).__name__}: {exc}"}
+    full = result["summary"]
+    Path(task_dir).mkdir(parents=True, exist_ok=True)
+    writers.write_json(full, Path(task_dir) / SURVEY_NAME)
+    position = full["position"]
+    return {"status": "ok", "reason": None,
+            **{k: position[k] for k in ("x_m", "y_m", "z_m", "east_m", "north_m", "up_m")},
+            "realistic_sigma_m": position.get("realistic_sigma_m"), "formal_sigma_m": position.get("formal_sigma_m"),
+            "term_effects_mm": full.get("term_effects_mm"),
+            "relativity_k_phase": {s: {"k": v.get("k"), "sigma": v.get("sigma")}
+                                   for s, v in (full.get("relativity_k_phase") or {}).items()}}

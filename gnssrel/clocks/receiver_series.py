@@ -189,7 +189,7 @@ def compare_receiver_clock(series: pd.DataFrame, positions_by_hypothesis: dict[s
     out.update(margin_ns=m["margin"], margin_sigma_ns=m["sigma"], decided=bool(decided), p_reversed=m["p_reversed"])
     rms = out["rms_difference_ns"]
     text = (f"RMS difference from '{best}' {rms[best]:.1f} ns (mean {out['mean_difference_ns'][best]:+.1f} ns), "
-            f"from '{second}' {rms[second]:.1f} ns: margin {m['margin']:.1f} ns +- {m['sigma']:.1f} ns "
+            f"from '{second}' {rms[second]:.1f} ns: margin {m['margin']:.1f} ns ± {m['sigma']:.1f} ns "
             f"(z = {min(m['z'], 999):.1f}) over {out['n_matched'][best]} epochs ({m['n_effective']:.0f} independent)")
     out["verdict"] = (f"closest to '{best}': {text}" if decided else
                       f"undetermined: {text}: needs z > {N_SIGMA:g} and a margin over {MIN_MARGIN_NS:g} ns")

@@ -36,6 +36,10 @@ def add_arguments(parser) -> None:
     parser.add_argument("--precise", metavar="SP3|CLK", nargs="+",
                         help="precise products: SP3 orbit files (needed) and optionally RINEX clock files, "
                              "whose clocks then replace the SP3 clocks")
+    parser.add_argument("--antex", metavar="ATX",
+                        help="satellite antenna offsets (ANTEX 1.4) for --precise: the SP3 positions (centre "
+                             "of mass) are moved to the antenna phase centre of the code pair (or code) each "
+                             "system's pseudoranges use")
     parser.add_argument("--position", metavar="X,Y,Z|LAT,LON,H", help=common.POSITION_HELP)
     parser.add_argument("--receiver-fixes", metavar="FILE",
                         help=f"the receiver's own fixes: {common.RECEIVER_FIXES_FORMAT}")
@@ -162,7 +166,13 @@ def run(args) -> dict:
     position = _parse_position(args.position) if args.position else None
     start, end = common.time_window(args)
     letters = common.parse_systems(args.systems)
+    if getattr(args, "antex", None) and not args.precise:
+        raise GnssrelInputError("--antex moves precise orbits to the antenna phase centre: give --precise SP3 files")
     precise = read_precise(args.precise, list(letters) if letters else None) if args.precise else None
+    if precise is not None and getattr(args, "antex", None):
+        from gnssrel.io.antex import read_antex  # deferred: only with --antex
+
+        precise["antex"] = read_antex(args.antex)
     nav, present = read_navigation_files(args.nav, letters)
     systems = list(present)          # observed systems without navigation records would void every fix
     with step(f"reading {args.obs}"):
@@ -193,6 +203,8 @@ def run(args) -> dict:
                         frequencies=args.frequencies, smooth_code_s=args.smooth_code,
                         fix_options=fix_options)
     summary = audited.summary
+    if precise is not None:
+        _antenna_summary(summary, audited.ledger, precise, getattr(args, "antex", None))
     if clock_series is not None:
         _compare_clock_series(summary, audited, clock_series)
     if summary["position"].get("reference") == "header":      # the header position is approximate only
@@ -221,6 +233,26 @@ def run(args) -> dict:
 
     common.flag_faults(args, [args.obs] if firmware_at_fault(summary, summary.get("receiver_clocks")) else [])
     return summary
+
+
+def _antenna_summary(summary: dict, ledger, precise: dict, antex_path) -> None:
+    """The summary's ``antenna_offsets`` entry; with --antex the ANTEX reader's counts and the
+    warnings of satellites left without an offset join the accounting."""
+    if not antex_path:
+        summary["antenna_offsets"] = {"applied": False, "note": "no --antex: the precise positions are the "
+                                      "satellites' centres of mass, the pseudoranges refer to the antenna "
+                                      "phase centre (about 1-3 m apart, mostly radial)"}
+        return
+    ledger.merge(precise["antex"].accounting)
+    ledger.merge(precise.get("antenna_ledger"))
+    summary["accounting"] = ledger.as_dict()
+    by_system = precise.get("antenna_offsets", {})
+    summary["antenna_offsets"] = {
+        "applied": True, "file": str(antex_path), "by_system": by_system,
+        "n_satellites": sum(len(e["offsets_body_m"]) for e in by_system.values()),
+        "attitude": "nominal yaw steering (z to the Earth, y = z x Sun), low-precision Sun",
+        "note": "precise positions moved to the phase centre of each system's code pair (ionosphere-free "
+                "combination of the ANTEX offsets) or single code"}
 
 
 FIX_QUALITY_COLUMNS = ("n_used", "n_excluded", "gdop", "pdop", "hdop", "vdop", "test_statistic", "test_threshold",
@@ -297,6 +329,12 @@ def _print_text(summary: dict) -> None:
     for s, why in (summary.get("relativity_k_not_fitted") or {}).items():
         print(f"  {system_label(s)}: no k: {why}")
     _print_codes(summary.get("codes"))
+    antenna = summary.get("antenna_offsets")
+    if antenna and antenna.get("applied"):
+        parts = [f"{system_label(s)} {e['codes']} ({e['antex_codes']}): {len(e['offsets_body_m'])} satellites"
+                 + (f", {len(e['missing'])} without" if e["missing"] else "")
+                 for s, e in ((s, antenna["by_system"][s]) for s in in_system_order(antenna["by_system"]))]
+        print(f"precise orbits moved to the antenna phase centre ({antenna['file']}): " + "; ".join(parts))
     p = summary["position"]
     if p["median_error_3d_m"] is not None:
         print(f"median 3-D position error against the {p['reference']} position: {p['median_error_3d_m']:.2f} m "

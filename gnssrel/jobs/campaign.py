@@ -58,6 +58,10 @@ def add_arguments(parser) -> None:
     parser.add_argument("--summary", metavar="FILE.json", help=common.SUMMARY_HELP)
     parser.add_argument("--report", action=argparse.BooleanOptionalAction, default=True,
                         help="write the campaign report (HTML + figures) to DIR/report/ (default: on)")
+    parser.add_argument("--survey", action="store_true",
+                        help="also run the carrier-phase survey (`gnssrel survey`) on every station-day with "
+                             "precise SP3 and RINEX clock files: daily positions in the table, their "
+                             "repeatability per station in the summary")
     parser.add_argument("--dry-run", action="store_true", help="print the plan only")
     common.add_json(parser)
 
@@ -74,6 +78,8 @@ def run(args) -> dict | None:
         raise GnssrelInputError(f"--workers must be at least 1, not {args.workers}")
     options = {"systems": common.parse_systems(args.systems), "rule": args.rule, "step_s": args.step,
                "elevation_mask_deg": args.elevation_mask}
+    if args.survey:                  # only then: the default options (and content hashes) stay as they were
+        options["survey"] = True
     tasks, notes = plan_campaign(args.inputs, args.precise or (), args.receiver_fixes_dir)
     say = (lambda text: None) if args.quiet or args.json else print
     for line in describe_plan(tasks, notes):
@@ -139,6 +145,16 @@ def _print_text(summary: dict) -> None:
     for t in summary["tasks"]:
         if t["status"] != "ok":
             print(f"  {t['station']} {t['date']} failed: {t['reason']}")
+    for t in summary["tasks"]:
+        survey = t.get("survey")
+        if survey is not None:
+            where = (f"east {fmt(survey.get('east_m'), '+.4f')} north {fmt(survey.get('north_m'), '+.4f')} "
+                     f"up {fmt(survey.get('up_m'), '+.4f')} m from the header" if survey["status"] == "ok"
+                     else f"{survey['status']}: {survey['reason']}")
+            print(f"  survey {t['station']} {t['date']}: {where}")
+    for station, r in (summary.get("survey_repeatability") or {}).items():
+        print(f"  survey repeatability {station} over {r['n_days']} day(s): east {fmt(r['east_mm'], '.1f')} "
+              f"north {fmt(r['north_mm'], '.1f')} up {fmt(r['up_mm'], '.1f')} mm (std of daily positions)")
     for day in summary["network"]:
         clocks = "; ".join(f"{s} k {fmt_k(c['k'], c['sigma'])} ({c['convention']})"
                            for s, c in day["clock_k"].items())

@@ -129,7 +129,7 @@ def _sisre_from_sp3(args, nav, precise, source, states, table, systems, ledger) 
                         "(or `gnssrel orbits --precise SP3 CLK --antex`)")
         return {}
     orbits = precise_states(precise, states["time"].values)
-    orbits, antenna = antenna_offsets(getattr(args, "antex", None), orbits, ledger)
+    orbits, antenna = antenna_offsets(getattr(args, "antex", None), orbits, ledger, states, nav)
     per_epoch = per_epoch_differences(states, orbits)
     out = signal_in_space_error(nav, None, states, orbits, per_epoch, systems, clock_table=table,
                                 source="SP3 clocks")

@@ -165,7 +165,7 @@ def run(args) -> dict:
         precise = precise_states(sp3, times)
         states = broadcast_states(nav, times, systems, args.include_unhealthy, rule=args.rule)
         _check_states(states, nav, systems, start, end)
-        precise, antenna = antenna_offsets(getattr(args, "antex", None), precise, ledger)
+        precise, antenna = antenna_offsets(getattr(args, "antex", None), precise, ledger, states, nav)
         table, summary = compare_with_precise(states, precise)
         per_epoch = per_epoch_differences(states, precise)
         if getattr(args, "per_epoch", False):
@@ -194,9 +194,29 @@ def run(args) -> dict:
     return common.emit(args, summary, table, _print_table)
 
 
-def antenna_offsets(antex_path, precise, ledger):
+def serving_record_types(states, nav, svs=None) -> np.ndarray:
+    """The record type (``nav_type``) of the broadcast record serving each (time, sv) of
+    ``states`` ("" where none), from its ``ephemeris_row``; columns for ``svs`` (default the
+    states' satellites)."""
+    rows = states["ephemeris_row"].transpose("time", "sv").values
+    column = {str(sv): j for j, sv in enumerate(states["sv"].values)}
+    svs = list(column) if svs is None else [str(sv) for sv in svs]
+    out = np.full((rows.shape[0], len(svs)), "", dtype=object)
+    for j, sv in enumerate(svs):
+        table = nav.ephemerides.get(sv[0])
+        if sv not in column or table is None or "nav_type" not in table:
+            continue
+        kinds = table["nav_type"].to_numpy().astype(str)
+        served = rows[:, column[sv]]
+        at = served >= 0
+        out[at, j] = kinds[served[at]]
+    return out
+
+
+def antenna_offsets(antex_path, precise, ledger, states=None, nav=None):
     """Precise states moved to the broadcast phase centre with ``--antex`` (else unchanged), and
-    the summary entry saying which."""
+    the summary entry saying which.  With the broadcast ``states`` (same epochs) and ``nav``, the
+    pair of the record type serving each epoch (Galileo F/NAV: E1/E5a, gnssrel.orbits.antenna)."""
     if not antex_path:
         return precise, {"applied": False, "note": "no --antex: the precise orbits refer to the centre of mass, "
                                                    "the broadcast ones to the antenna phase centre; the "
@@ -205,10 +225,14 @@ def antenna_offsets(antex_path, precise, ledger):
     from gnssrel.orbits.antenna import to_phase_centre
     antex = read_antex(antex_path)
     ledger.merge(antex.accounting)
-    moved, info = to_phase_centre(precise, antex, ledger)
+    nav_types = None
+    if states is not None and nav is not None and "ephemeris_row" in states \
+            and np.array_equal(states["time"].values, precise["time"].values):
+        nav_types = serving_record_types(states, nav, precise["sv"].values)
+    moved, info = to_phase_centre(precise, antex, ledger, nav_types)
     return moved, {"applied": True, "file": str(antex_path), "n_satellites": len(info["applied"]),
                    "offsets_body_m": info["applied"], "missing": info["missing"],
-                   "combination": info["combination"],
+                   "combination": info["combination"], "record_type_offsets_body_m": info.get("record_pairs", {}),
                    "attitude": "nominal yaw steering (z to the Earth, y = z x Sun), low-precision Sun"}
 
 

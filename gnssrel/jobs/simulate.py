@@ -26,7 +26,11 @@ DESCRIPTION = (
     "periodic term).  "
     "With --stations N --days D: an invented campaign instead, N receivers (every second one "
     "faulty) logging each day, one folder per day, with campaign.csv listing each station-day's "
-    "files and scenario.json the truth.")
+    "files and scenario.json the truth.  "
+    "With --survey: one static geodetic station instead (24 h at 30 s by default) whose dual-frequency "
+    "carrier phase carries the same terms as its code plus integer ambiguities per arc, phase wind-up "
+    "and a few cycle slips (listed in scenario.json), with the station's position known to 0.1 mm: "
+    "the invented truth for `gnssrel survey`.")
 
 log = logging.getLogger(__name__)
 
@@ -47,11 +51,25 @@ def add_arguments(parser):
                              "two single-frequency low-cost modules (ms clock offset and drift with a 1 ms step, "
                              "C/N0-dependent noise, multipath, outliers, filtered fixes and their own clock series "
                              "CSV; one correct, one doubling the periodic term); default 0.5 h at 1 s")
+    parser.add_argument("--survey", action="store_true",
+                        help="write a static survey station instead: dual-frequency code and carrier phase "
+                             "(ambiguities, wind-up, cycle slips), 24 h at 30 s by default, its position in "
+                             "scenario.json to 0.1 mm")
+    parser.add_argument("--clock-convention", choices=("excludes-periodic-and-j2", "igs"),
+                        default="excludes-periodic-and-j2",
+                        help="with --survey: what the precise clocks leave out: the periodic term (ICD form) and "
+                             "the J2 term, which the user applies (default), or only -2 r.v/c^2 as an IGS "
+                             "analysis (igs: the J2 term stays in the clocks)")
+    parser.add_argument("--no-tide", dest="tide", action="store_false",
+                        help="with --survey: a static station (default: it moves with the solid-Earth tide, "
+                             "IERS 2010 eq. 7.5 degree 2, and its coordinates are conventional tide free)")
     common.add_json(parser, "print the scenario manifest as JSON on stdout instead of the text")
 
 
 def run(args) -> dict:
     write = _campaign if args.stations is not None or args.days is not None else _scenario
+    if getattr(args, "survey", False):
+        write = _survey
     manifest, lines = write(args)
     if args.json:
         print(to_json_text(manifest))
@@ -81,6 +99,30 @@ def _scenario(args) -> tuple[dict, list[str]]:
         lines.append(f"  receiver {r['marker']}: {state}; its fixes are off by "
                      f"{r['fix_error_3d_m']['median']:.1f} m (median 3D){extra}")
     return manifest, lines
+
+
+def _survey(args) -> tuple[dict, list[str]]:
+    # deferred: as in _scenario
+    from gnssrel.simulate.survey import SURVEY_HOURS
+    from gnssrel.simulate.write_survey import write_survey
+
+    if args.stations is not None or args.days is not None or args.receiver != "geodetic":
+        raise GnssrelInputError("--survey: not with --stations/--days or --receiver low-cost (one geodetic station)")
+    hours = SURVEY_HOURS if args.hours is None else args.hours
+    interval = 30.0 if args.interval is None else args.interval
+    manifest = write_survey(args.output, seed=args.seed, hours=hours, interval_s=interval, tide=args.tide,
+                            clock_convention=args.clock_convention)
+    s = manifest["survey"]
+    x, y, z = s["marker_ecef_m"]
+    return manifest, [
+        (f"invented survey: {len(manifest['files'])} files in {args.output}, "
+         f"{fmt_span(parse_time(manifest['start'], 'GPST'), parse_time(manifest['end'], 'GPST'))}, "
+         f"{interval:g} s, seed {args.seed}"),
+        (f"  station {s['station']}: marker at X {x:.4f} m, Y {y:.4f} m, Z {z:.4f} m (ECEF), antenna "
+         f"{s['antenna_delta_hen_m'][0]:.4f} m above it; {s['arcs']} arcs, {len(s['cycle_slips'])} cycle slips; "
+         f"{'moves with the solid-Earth tide' if s['solid_earth_tide'] else 'static (no tide)'}"),
+        (f"  precise clocks: {manifest['products']['precise_clock_convention']}; a solution meets the truth "
+         f"applying: {', '.join(s['expected']['terms_to_apply'])}")]
 
 
 def _campaign(args) -> tuple[dict, list[str]]:

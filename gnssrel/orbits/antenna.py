@@ -8,7 +8,8 @@ per system, :data:`BROADCAST_COMBINATION` (ANTEX 1.4 frequency codes):
 * GPS: L1/L2 (G01/G02), IS-GPS-200 20.3.3.3.3.2 (the clock is for the L1 P(Y)/L2 P(Y) pair);
 * QZSS: L1/L2 (J01/J02), as GPS (IS-QZSS-PNT, from memory);
 * Galileo: E1/E5b (E01/E07) for I/NAV, the record type the states use first; F/NAV refers to
-  E1/E5a (E01/E05) (Galileo OS SIS ICD 5.1.4, from memory);
+  E1/E5a (E01/E05) (Galileo OS SIS ICD 5.1.4, from memory): :data:`RECORD_COMBINATION`, used
+  where an F/NAV record serves the epoch (``nav_types`` of :func:`to_phase_centre`);
 * BeiDou: B1I/B3I (C02/C06) (BDS-SIS-ICD-B1I 5.2.4.10 refers the clock to B3I and gives the B1I
   group delay, so the B1I/B3I pair is the one a dual-frequency user forms; from memory);
 * GLONASS: G1/G2 (R01/R02) FDMA (the ratio f1/f2 = 9/7 for every channel, so the combination
@@ -16,6 +17,12 @@ per system, :data:`BROADCAST_COMBINATION` (ANTEX 1.4 frequency codes):
 
 The ionosphere-free offset of a pair (f1, f2) is (f1^2 o1 - f2^2 o2) / (f1^2 - f2^2) (common
 practice); IGS ANTEX files often give the same value for both frequencies of GPS and GLONASS.
+
+A receiver's pseudorange refers to the phase centre of the signals it combines, whatever the
+broadcast clock refers to: the audit moves precise (centre-of-mass) positions to the phase centre
+of its own code pair (or single code), :func:`observation_offsets` / :func:`shift_to_phase_centre_m`.
+The ANTEX frequency code of an observation code is the system letter and its RINEX band digit
+("C1C" of GPS -> "G01", "C5Q" of Galileo -> "E05"; ANTEX 1.4 section 4, the RINEX 3 codes).
 
 ANTEX satellite offsets are in the satellite body frame of the nominal yaw-steering attitude
 (IGS axis convention, Montenbruck et al. 2015, Adv. Space Res. 56:1015, from memory): +z points
@@ -41,8 +48,13 @@ BROADCAST_COMBINATION = {"G": ("G01", "G02"), "J": ("J01", "J02"), "E": ("E01", 
                          "C": ("C02", "C06"), "R": ("R01", "R02")}
 """ANTEX frequency codes of the ionosphere-free pair each system's broadcast clock refers to."""
 
+RECORD_COMBINATION = {("E", "FNAV"): ("E01", "E05")}
+"""(system, record type) -> the pair of a record type whose clock refers to another pair than
+:data:`BROADCAST_COMBINATION` (Galileo F/NAV: E1/E5a)."""
+
 COMBINATION_WORDS = {"G": "GPS L1/L2", "J": "QZSS L1/L2", "E": "Galileo E1/E5b (I/NAV)",
                      "C": "BeiDou B1I/B3I", "R": "GLONASS G1/G2 (FDMA)"}
+RECORD_COMBINATION_WORDS = {("E", "FNAV"): "Galileo E1/E5a (F/NAV)"}
 
 AU_M = 149_597_870_700.0  # IAU 2012 Resolution B2 (published)
 
@@ -84,18 +96,27 @@ def body_axes(position_m: np.ndarray, sun_m: np.ndarray) -> np.ndarray:
     return np.stack([e_x, e_y, e_z], axis=-2)
 
 
-def ionosphere_free_offset_m(offsets_mm: dict, system: str) -> np.ndarray | None:
-    """The body-frame offset (3,) m of the system's broadcast pair, or None when a frequency lacks."""
-    pair = BROADCAST_COMBINATION.get(system)
-    if pair is None or any(code not in offsets_mm for code in pair):
+def ionosphere_free_offset_m(offsets_mm: dict, system: str, pair=None) -> np.ndarray | None:
+    """The body-frame offset (3,) m of ``pair`` (ANTEX codes; default the system's broadcast pair;
+    one code: that frequency's offset), or None when a frequency lacks."""
+    pair = BROADCAST_COMBINATION.get(system) if pair is None else tuple(pair)
+    if not pair or any(code not in offsets_mm for code in pair):
         return None
+    if len(pair) == 1:
+        return np.asarray(offsets_mm[pair[0]], dtype=float) / 1000.0
     f1, f2 = (frequency_hz(system, "C" + code[2]) for code in pair)
     o1, o2 = (np.asarray(offsets_mm[code], dtype=float) / 1000.0 for code in pair)
     return (f1 * f1 * o1 - f2 * f2 * o2) / (f1 * f1 - f2 * f2)
 
 
-def satellite_offsets(antex, svs, t_gpst, ledger: Ledger | None = None) -> tuple[dict, dict]:
-    """Body-frame offsets {sv: (3,) m} of the broadcast pair, for the antennas valid at ``t_gpst``.
+def antex_codes(system: str, observation_codes) -> tuple[str, ...]:
+    """ANTEX frequency codes of RINEX observation codes: ("C1C", "C5Q") of "E" -> ("E01", "E05")."""
+    return tuple(f"{system}0{code[1]}" for code in observation_codes)
+
+
+def satellite_offsets(antex, svs, t_gpst, ledger: Ledger | None = None, pair=None) -> tuple[dict, dict]:
+    """Body-frame offsets {sv: (3,) m} of ``pair`` (ANTEX codes; default each system's broadcast
+    pair), for the antennas valid at ``t_gpst``.
 
     The PRN -> antenna (SVN) mapping is the one valid at ``t_gpst`` (ANTEX VALID FROM/UNTIL).
     Returns (offsets, missing {sv: reason}); each missing satellite is warned in ``ledger``.
@@ -106,10 +127,12 @@ def satellite_offsets(antex, svs, t_gpst, ledger: Ledger | None = None) -> tuple
         if antenna is None:
             missing[sv] = "no satellite antenna in the ANTEX file for this PRN and date"
         else:
-            value = ionosphere_free_offset_m({k: p.offset_mm for k, p in antenna.frequencies.items()}, sv[0])
+            value = ionosphere_free_offset_m({k: p.offset_mm for k, p in antenna.frequencies.items()}, sv[0],
+                                             pair)
             if value is None:
-                pair = "/".join(BROADCAST_COMBINATION.get(sv[0], ("?",)))
-                missing[sv] = f"the ANTEX antenna {antenna.svn} lacks a frequency of the pair {pair}"
+                codes = "/".join(pair or BROADCAST_COMBINATION.get(sv[0], ("?",)))
+                missing[sv] = (f"the ANTEX antenna {antenna.svn} lacks a frequency of the "
+                               f"{'pair' if '/' in codes else 'code'} {codes}")
             else:
                 offsets[sv] = value
         if sv in missing and ledger is not None:
@@ -117,20 +140,46 @@ def satellite_offsets(antex, svs, t_gpst, ledger: Ledger | None = None) -> tuple
     return offsets, missing
 
 
+def shift_to_phase_centre_m(position_m: np.ndarray, t_gpst, body_offset_m: np.ndarray) -> np.ndarray:
+    """ECEF vectors (n, 3) m from the centre of mass to the phase centre, for centre-of-mass
+    positions (n, 3) at GPST ``t_gpst`` (n,) and body-frame offsets (n, 3) (NaN rows give 0)."""
+    position_m = np.asarray(position_m, dtype=float)
+    good = np.all(np.isfinite(position_m), axis=-1, keepdims=True)
+    axes = body_axes(np.where(good, position_m, 1.0), sun_position_ecef_m(t_gpst))
+    shift = np.einsum("nij,ni->nj", axes, np.asarray(body_offset_m, dtype=float))
+    return np.where(np.isfinite(shift) & good, shift, 0.0)
+
+
+def observation_offsets(antex, system: str, observation_codes, svs, t_gpst,
+                        ledger: Ledger | None = None) -> tuple[dict, dict]:
+    """Body-frame offsets {sv: (3,) m} of the phase centre a receiver's ``observation_codes``
+    (one code, or the ionosphere-free pair) refer to; (offsets, missing) as :func:`satellite_offsets`."""
+    return satellite_offsets(antex, svs, t_gpst, ledger, antex_codes(system, observation_codes))
+
+
 def offset_vectors_ecef_m(states: xr.Dataset, offsets: dict) -> np.ndarray:
-    """ECEF offset vectors (time, sv, 3) m of the antenna from the centre of mass; NaN where none."""
+    """ECEF offset vectors (time, sv, 3) m of the antenna from the centre of mass; NaN where none.
+    ``offsets``: {sv: (3,)} body-frame metres, or {sv: (time, 3)} where they change with time."""
     r = states["position_ecef_m"].transpose("time", "sv", "axis").values
     sun = sun_position_ecef_m(states["time"].values)[:, None, :]
     axes = body_axes(np.where(np.isfinite(r), r, 1.0), np.broadcast_to(sun, r.shape))
-    body = np.array([offsets.get(str(sv), (np.nan,) * 3) for sv in states["sv"].values], dtype=float)
-    return np.einsum("tsij,si->tsj", axes, body)
+    body = np.full(r.shape, np.nan)
+    for j, sv in enumerate(map(str, states["sv"].values)):
+        if sv in offsets:
+            body[:, j] = np.asarray(offsets[sv], dtype=float)
+    return np.einsum("tsij,tsi->tsj", axes, body)
 
 
-def to_phase_centre(precise: xr.Dataset, antex, ledger: Ledger | None = None) -> tuple[xr.Dataset, dict]:
+def to_phase_centre(precise: xr.Dataset, antex, ledger: Ledger | None = None,
+                    nav_types=None) -> tuple[xr.Dataset, dict]:
     """Precise (centre-of-mass) states moved to the broadcast phase centre; satellites without an
-    offset keep the centre of mass.  Returns (states, info {"applied": {sv: [x, y, z] m},
-    "missing": {sv: reason}, "combination": {letter: words}})."""
-    return _shift(precise, antex, ledger, +1.0)
+    offset keep the centre of mass.  ``nav_types``: None, or the record type (e.g. "INAV",
+    "FNAV") of the broadcast record serving each (time, sv) of ``precise`` (array of strings):
+    where :data:`RECORD_COMBINATION` names another pair for it (Galileo F/NAV: E1/E5a), that
+    pair's offset is used there.  Returns (states, info {"applied": {sv: [x, y, z] m},
+    "missing": {sv: reason}, "combination": {letter: words}}; with ``nav_types`` also
+    "record_pairs": {sv: {record type: [x, y, z] m}} for the epochs served by such a record)."""
+    return _shift(precise, antex, ledger, +1.0, nav_types)
 
 
 def to_centre_of_mass(broadcast: xr.Dataset, antex, ledger: Ledger | None = None) -> tuple[xr.Dataset, dict]:
@@ -139,12 +188,35 @@ def to_centre_of_mass(broadcast: xr.Dataset, antex, ledger: Ledger | None = None
     return _shift(broadcast, antex, ledger, -1.0)
 
 
-def _shift(states: xr.Dataset, antex, ledger, sign: float):
+def _record_offsets(antex, svs, t_mid, nav_types, offsets, ledger) -> tuple[dict, dict]:
+    """Per-epoch offsets {sv: (time, 3)} where a record type with its own pair serves an epoch."""
+    kinds = np.asarray(nav_types).astype(str)
+    out, applied = dict(offsets), {}
+    for (letter, kind), pair in RECORD_COMBINATION.items():
+        for j, sv in enumerate(svs):
+            at = kinds[:, j] == kind
+            if sv[0] != letter or not at.any():
+                continue
+            own, _ = satellite_offsets(antex, [sv], t_mid, ledger, pair)
+            base = np.broadcast_to(np.asarray(offsets.get(sv, (np.nan,) * 3), float), (kinds.shape[0], 3)).copy()
+            base[at] = own.get(sv, (np.nan,) * 3)
+            out[sv] = base
+            if sv in own:
+                applied.setdefault(sv, {})[kind] = [float(v) for v in own[sv]]
+    return out, applied
+
+
+def _shift(states: xr.Dataset, antex, ledger, sign: float, nav_types=None):
     times = states["time"].values
     t_mid = times[len(times) // 2] if len(times) else np.datetime64("2000-01-01", "ns")
     svs = [str(s) for s in states["sv"].values]
     offsets, missing = satellite_offsets(antex, svs, t_mid, ledger)
-    shift = offset_vectors_ecef_m(states, offsets)
+    record_pairs = {}
+    if nav_types is not None:
+        per_epoch, record_pairs = _record_offsets(antex, svs, t_mid, nav_types, offsets, ledger)
+    else:
+        per_epoch = offsets
+    shift = offset_vectors_ecef_m(states, per_epoch)
     shift = np.where(np.isfinite(shift), shift, 0.0)
     out = states.copy()
     pos = states["position_ecef_m"].transpose("time", "sv", "axis")
@@ -153,4 +225,10 @@ def _shift(states: xr.Dataset, antex, ledger, sign: float):
     info = {"applied": {sv: [float(v) for v in o] for sv, o in offsets.items()}, "missing": missing,
             "combination": {s: COMBINATION_WORDS[s] for s in dict.fromkeys(sv[0] for sv in svs)
                             if s in COMBINATION_WORDS}}
+    if nav_types is not None:
+        info["record_pairs"] = record_pairs
+        kinds = {kind for pairs in record_pairs.values() for kind in pairs}
+        for (letter, kind), words in RECORD_COMBINATION_WORDS.items():
+            if kind in kinds and letter in info["combination"]:
+                info["combination"][letter] += f"; {words} where such a record serves"
     return out, info

@@ -20,6 +20,10 @@ Both rules follow the same steps; only ``require_transmitted`` differs:
 2. Receiver rule only: it must already have been *transmitted*.
 3. It must be *healthy* (health word 0; Galileo also SISA not "NAPA", i.e.
    ``accuracy_m`` >= 0, Galileo OS SIS ICD 5.1.11-5.1.12), unless ``include_unhealthy``.
+   GPS and QZSS CNAV records carry one health bit per carrier, and only the bits of the
+   carriers the use needs count (:data:`SIGNAL_HEALTH_BITS`, :func:`healthy_records`): by
+   default the L1/L2 pair the broadcast clock refers to, so an L5-only flag leaves the record
+   healthy for orbits, relativity and clocks.
 4. Satellites on the system's exclusion list are left out unless ``include_unhealthy``.
 5. Among the records left, the preferred message type wins (Galileo I/NAV over
    F/NAV: I/NAV is the message of the E1/E5b dual-frequency service, and in a
@@ -98,6 +102,23 @@ from gnssrel.orbits.status import (
     codes_of,
 )
 from gnssrel.systems import system_model
+
+SIGNAL_HEALTH_BITS = {("G", "CNAV"): {"L1": 0b100, "L2": 0b010, "L5": 0b001},
+                      ("J", "CNAV"): {"L1": 0b100, "L2": 0b010, "L5": 0b001}}
+"""The health word of a record type that holds one bit per carrier: {carrier: bit} (1 = that
+carrier's signals are bad or unavailable).  GPS CNAV: Message Type 10 bits 52, 53, 54 are the
+L1, L2 and L5 health (IS-GPS-200 30.3.3.1.1.2), and the RINEX 4 field holds them as one number
+with L1 the most significant bit, L5 the least (RINEX 4.00 Table A32 note, from memory; the
+order is confirmed by BRD400DLR 2023-071: every CNAV record of the 25 satellites, the seven
+Block IIR-M ones without any L5 signal among them, holds 1 = L5 unavailable, while their LNAV
+health is 0).  QZSS CNAV: the same three bits (IS-QZSS-PNT 5.4.1, from memory).  Record types
+not listed here (LNAV, CNV2 with its single L1C bit, BeiDou, Galileo, ...) are healthy only with
+a health word of 0."""
+
+DEFAULT_HEALTH_SIGNALS = ("L1", "L2")
+"""The carriers whose health counts by default: the pair the GPS/QZSS broadcast clock refers to
+(IS-GPS-200 20.3.3.3.3.2: L1 P(Y)/L2 P(Y)), the pair of orbits, relativity, clocks and the
+dual-frequency audit; a use of other carriers passes its own to :func:`healthy_records`."""
 
 RULE_NAMES = ("post", "receiver")
 DEFAULT_RULE = "post"
@@ -193,9 +214,27 @@ def _limits_s(rows: pd.DataFrame, limits: SystemLimits, sv: str) -> tuple[np.nda
     return after, before
 
 
-def _healthy(rows: pd.DataFrame, limits: SystemLimits) -> np.ndarray:
+def healthy_records(rows: pd.DataFrame, system: str, signals=DEFAULT_HEALTH_SIGNALS) -> np.ndarray:
+    """Per record: healthy for a use of the carriers ``signals`` (module text, step 3)."""
+    return _healthy(rows, SYSTEM_LIMITS[system], signals, system)
+
+
+def _healthy(rows: pd.DataFrame, limits: SystemLimits, signals=DEFAULT_HEALTH_SIGNALS,
+             system: str | None = None) -> np.ndarray:
     health = rows["health"].to_numpy(dtype=np.float64) if "health" in rows else np.zeros(len(rows))
     ok = health == 0
+    if system is None and len(rows) and "sv" in rows:
+        system = str(rows["sv"].iloc[0])[:1]
+    kinds = rows["nav_type"].to_numpy() if "nav_type" in rows else None
+    for (letter, kind), bits in SIGNAL_HEALTH_BITS.items():
+        if letter != system or kinds is None:
+            continue
+        mask = sum(bits.get(signal, 0) for signal in signals)
+        of_kind = kinds == kind
+        if of_kind.any():
+            word = health[of_kind]
+            whole = np.isfinite(word) & (word >= 0) & (word == np.floor(word))
+            ok[of_kind] = whole & ((np.where(whole, word, 0).astype(np.int64) & mask) == 0)
     if limits.napa_is_unhealthy and "accuracy_m" in rows:
         ok &= ~(rows["accuracy_m"].to_numpy(dtype=np.float64) < 0)
     return ok
@@ -261,7 +300,7 @@ def select_ephemerides(table: pd.DataFrame, svs, times, system: str, include_unh
         if chosen_rule.require_transmitted and "transmission_time" in rows:
             tx = np.asarray(rows["transmission_time"]).astype("datetime64[ns]")
             transmitted = np.isnat(tx)[None, :] | (tx.astype(np.int64)[None, :] <= t_ns[:, None])
-        healthy = _healthy(rows, limits)[None, :] | include_unhealthy
+        healthy = _healthy(rows, limits, system=system)[None, :] | include_unhealthy
         usable = in_time & transmitted & healthy
         rank = np.zeros(rows_at.size)
         if limits.preferred_nav_types and "nav_type" in rows:

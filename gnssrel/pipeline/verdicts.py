@@ -101,13 +101,13 @@ def receiver_verdict(name: str, audit_summary: dict | None, clock_check: dict | 
                  "where": where}
     parts = []
     if fixes and fixes.get("closest"):
-        sigma = f" +- {margin_sigma:.2f} m" if isinstance(margin_sigma, float) and math.isfinite(margin_sigma) else ""
+        sigma = f" ± {margin_sigma:.2f} m" if isinstance(margin_sigma, float) and math.isfinite(margin_sigma) else ""
         parts.append(f"fixes {'closest to' if position_hypothesis else 'undetermined, nearest'} "
                      f"'{fixes['closest']}', margin {margin:.2f} m{sigma}")
     if series and series.get("closest"):
         parts.append(f"receiver clock {'closest to' if series_hypothesis else 'undetermined, nearest'} "
                      f"'{series['closest']}', margin {series['margin_ns'] or 0:.1f} ns "
-                     f"+- {series.get('margin_sigma_ns') or 0:.1f} ns")
+                     f"± {series.get('margin_sigma_ns') or 0:.1f} ns")
     if clock_check:
         ks = ", ".join(f"{s} {fmt_k(clock_check['by_system'][s]['convention_k'], clock_check['by_system'][s]['convention_k_sigma'])}"
                        for s in in_system_order(clock_check["by_system"]))

@@ -7,6 +7,10 @@ Earth rotation, Shapiro delay, troposphere and Klobuchar ionosphere
 ``gnssrel.clocks`` or ``gnssrel.audit``.  So when the audit agrees with the
 scenario's truth, that agreement is a real check, not the same code meeting itself.
 
+The survey scenario (``survey``, ``write_survey``: one static station with carrier phase) adds its
+own wind-up and Sun (``windup``), solid-Earth tide and Moon (``tides``) and Niell mapping (``niell``),
+written apart from the estimator's for the same reason.
+
 What is shared is what is not being checked: WGS-84 geodetic conversions and local
 azimuth/elevation (``gnssrel.geodesy``), the carrier frequencies (``gnssrel.signals``),
 the constants (``gnssrel.constants``), time scales (``gnssrel.timescales``), the error

@@ -144,8 +144,16 @@ def creation_date(scn) -> str:
     return f"{created[0]:04d}{created[1]:02d}{created[2]:02d} {created[3]:02d}{created[4]:02d}00 UTC"
 
 
-def write_products(out: Path, scn, names: dict, date: str) -> dict:
-    """The navigation file, SP3 and RINEX clock of the scenario's window; returns the ephemerides."""
+CLOCK_COMMENTS = ("CLOCKS EXCLUDE THE PERIODIC RELATIVISTIC TERM (AS IGS PRODUCTS)",
+                  "SATELLITE CLOCKS EXCLUDE THE PERIODIC RELATIVISTIC TERM")
+"""What the SP3 and the RINEX clock file say of their clocks (default products)."""
+
+
+def write_products(out: Path, scn, names: dict, date: str, precise_clock=truth.precise_clock_s,
+                   clock_comments: tuple[str, str] = CLOCK_COMMENTS) -> dict:
+    """The navigation file, SP3 and RINEX clock of the scenario's window; returns the ephemerides.
+    ``precise_clock(scn, t)``: the products' satellite clocks (default: without the periodic term),
+    ``clock_comments``: the comment line saying so in the SP3 and in the clock file."""
     week, sow = to_week_seconds(np.array([scn.start]), "GPST")
     ephemerides = {c: reexpress(scn.reference, scn.clock, issue_times(scn, c), c) for c in "GEC"}
     write_navigation(out / names["navigation"], ephemerides, {
@@ -159,15 +167,14 @@ def write_products(out: Path, scn, names: dict, date: str) -> dict:
     n_sp3 = int((scn.hours * 3600 + 2 * SP3_MARGIN_S) // SP3_INTERVAL_S) + 1
     t_sp3 = scn.start - np.timedelta64(SP3_MARGIN_S, "s") + step * np.arange(n_sp3)
     write_sp3(out / names["sp3"], t_sp3, sv, truth.true_orbit(scn, t_sp3)["position_ecef_m"],
-              truth.precise_clock_s(scn, t_sp3), AGENCY,
-              comments=[NOTICE, f"{AGENCY_NAME}: centre-of-mass orbits, GPST",
-                        "CLOCKS EXCLUDE THE PERIODIC RELATIVISTIC TERM (AS IGS PRODUCTS)"])
+              precise_clock(scn, t_sp3), AGENCY,
+              comments=[NOTICE, f"{AGENCY_NAME}: centre-of-mass orbits, GPST", clock_comments[0]])
     n_clk = int(scn.hours * 3600 // 30) + 1
     t_clk = scn.start + np.timedelta64(30, "s") * np.arange(n_clk)
-    write_clock(out / names["clock"], t_clk, sv, truth.precise_clock_s(scn, t_clk), {
+    write_clock(out / names["clock"], t_clk, sv, precise_clock(scn, t_clk), {
         "program": PROGRAM, "run_by": AGENCY, "date": date, "agency": AGENCY,
         "agency_name": AGENCY_NAME, "leap_seconds": LEAP_SECONDS,
-        "comments": [NOTICE, "SATELLITE CLOCKS EXCLUDE THE PERIODIC RELATIVISTIC TERM"]})
+        "comments": [NOTICE, clock_comments[1]]})
     return ephemerides
 
 

@@ -42,7 +42,9 @@ def eccentric_anomaly(mean_anomaly_rad: np.ndarray, e: np.ndarray) -> np.ndarray
 def kepler_positions(elements, t_gpst) -> dict[str, np.ndarray]:
     """ECEF position (m) and eccentric anomaly of broadcast elements at GPST times.
 
-    Returns ``position_ecef_m`` (n_t, n_sat, 3) and ``eccentric_anomaly_rad`` (n_t, n_sat).
+    Returns ``position_ecef_m`` (n_t, n_sat, 3) and ``eccentric_anomaly_rad`` (n_t, n_sat), and the
+    corrected argument of latitude ``argument_of_latitude_rad`` and inclination ``inclination_rad``
+    (Table 20-IV u_k, i_k; the J2 clock term of :mod:`gnssrel.simulate.survey` needs them).
     """
     el = {k: np.asarray(v) for k, v in elements.items()}
     mu, omega_e = system_constants(el["sv"])
@@ -65,7 +67,8 @@ def kepler_positions(elements, t_gpst) -> dict[str, np.ndarray]:
     pos = np.stack([xp * np.cos(node) - yp * np.cos(i) * np.sin(node),
                     xp * np.sin(node) + yp * np.cos(i) * np.cos(node),
                     yp * np.sin(i)], axis=-1)
-    return {"position_ecef_m": pos, "eccentric_anomaly_rad": E}
+    return {"position_ecef_m": pos, "eccentric_anomaly_rad": E, "argument_of_latitude_rad": u,
+            "inclination_rad": i}
 
 
 def periodic_term_s(elements, eccentric_anomaly_rad) -> np.ndarray:
