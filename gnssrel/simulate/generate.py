@@ -269,6 +269,8 @@ def scenario_manifest(scn, names, receivers, ephemerides) -> dict:
                            "Saastamoinen troposphere, Klobuchar ionosphere scaled 1/f^2, broadcast group "
                            "delays, receiver clock + inter-system bias, white noise ~0.3 m",
             "carrier_phase": "same geometry, ionosphere advanced, integer ambiguity, no slips, 2 mm noise",
+            "solid_earth_tide": "the antenna moves with the degree-2 solid-Earth tide (IERS 2010 eq. 7.5) about "
+                                "the site's tide-free coordinates (the header position)",
             "elevation_mask_deg": 10.0,
             "galileo_clock_reference": "F/NAV: E1/E5a ionosphere-free (BGD E5a/E1 for single E1)",
             "beidou_clock_reference": "D1: B3I (TGD1 for single B1I)",

@@ -16,7 +16,7 @@ from __future__ import annotations
 import numpy as np
 
 from gnssrel.constants import C_M_S
-from gnssrel.simulate import truth
+from gnssrel.simulate import tides, truth
 from gnssrel.simulate.propagation import (
     L1_HZ,
     klobuchar_l1_s,
@@ -62,12 +62,17 @@ def group_delay_s(scn, letter_per_sat: np.ndarray, band_index: int) -> np.ndarra
 def geometry(scn, rcv, position_of=truth.true_orbit):
     """Light-time geometry of every satellite at every epoch of a receiver.
 
+    The antenna moves with the solid-Earth tide (:func:`gnssrel.simulate.tides.displacement_m`,
+    up to ~0.3 m) about the site's conventional (tide-free) coordinates, as a real one does; the
+    directions are taken from the site (the tide turns them by < 1e-7 rad).
+
     Returns a dict of (n_t, n_sat) arrays: t_tx, tau_s, az, el, plus ``sat_rx_frame_m``
     (n_t, n_sat, 3) and the eccentric anomaly at transmission.
     """
     x_r = rcv.site.position_ecef_m
     t_rx_true = scn.epochs - np.round(receiver_clock_s(scn, rcv, scn.epochs) * 1e9).astype("timedelta64[ns]")
-    t_tx, tau, sat = light_time(lambda t: position_of(scn, t)["position_ecef_m"], x_r, t_rx_true)
+    antenna = (x_r + tides.displacement_m(x_r, t_rx_true))[:, None, :]
+    t_tx, tau, sat = light_time(lambda t: position_of(scn, t)["position_ecef_m"], antenna, t_rx_true)
     E = position_of(scn, t_tx)["eccentric_anomaly_rad"]
     az, el, lat, lon, h = receiver_view(x_r, sat)
     return {"t_rx_true": t_rx_true, "t_tx": t_tx, "tau_s": tau, "sat_rx_frame_m": sat,
