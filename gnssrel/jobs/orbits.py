@@ -261,8 +261,10 @@ def signal_in_space_error(nav, clocks, states, precise, per_epoch, systems, cloc
     if clock_table is not None:
         clock = clock_errors_m(clock_table)
     r = np.linalg.norm(precise["position_ecef_m"].transpose("time", "sv", "axis").values, axis=-1)
-    with np.errstate(invalid="ignore"):
-        radius = dict(zip(map(str, precise["sv"].values), np.nanmean(np.where(r > 0, r, np.nan), axis=0)))
+    good = np.isfinite(r) & (r > 0)                   # mean orbit radius per satellite; NaN where none
+    n_good = good.sum(axis=0)
+    mean_r = np.where(n_good > 0, np.where(good, r, 0.0).sum(axis=0) / np.maximum(n_good, 1), np.nan)
+    radius = dict(zip(map(str, precise["sv"].values), mean_r))
     table, by_system = summarize_sisre(per_epoch_sisre(per_epoch, clock, radius))
     _, unbiased = summarize_sisre(per_epoch_sisre(per_epoch, clock, radius, remove_mean_radial=True))
     for letter, entry in by_system.items():      # the antenna offset's share, when no --antex
