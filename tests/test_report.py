@@ -332,7 +332,7 @@ def test_findings_of_a_log_without_receiver_files_state_every_result_first():
 def test_default_title_names_the_station_and_day(content):
     from types import SimpleNamespace
 
-    from gnssrel.report.titles import report_title, station_of_file
+    from gnssrel.pipeline.titles import report_title, station_of_file
 
     assert report_title(content) == "KVRP, SLMB 2025-06-11 (day 162)"
     t = np.datetime64("2024-05-03T06:00", "ns")

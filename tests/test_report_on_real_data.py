@@ -15,9 +15,9 @@ import pytest
 from conftest import refdata_file
 
 from gnssrel.pipeline.analysis import analyse, default_window
+from gnssrel.pipeline.titles import report_title
 from gnssrel.report.builder import write_folder_atomically, write_report_files
 from gnssrel.report.figures import build_figures
-from gnssrel.report.titles import report_title
 
 # IS-GPS-200 3.3.1.1: the satellite clock's 10.23 MHz is lowered to 10.22999999543 MHz,
 # i.e. a fractional rate offset of 4.4647e-10 (published).

@@ -92,10 +92,6 @@ def run(args) -> dict:
                       title=args.title, progress=progress, systems=common.parse_systems(args.systems),
                       start=start, end=end, step_s=args.step, rule=args.rule,
                       clock_series_paths=args.receiver_clock_bias)
-    if not args.title:
-        from gnssrel.report.titles import report_title  # deferred: the report layer (start-up of --help)
-
-        content.title = content.summary["title"] = report_title(content)
     for r in content.receivers:   # header/body disagreements of each log (gnssrel audit prints them too)
         for warning in ((r.audit_summary or {}).get("observations") or {}).get("reader_warnings", []):
             log.warning("%s: %s", r.observations_path, warning)

@@ -41,6 +41,7 @@ from gnssrel.pipeline.inputs import (
 )
 from gnssrel.pipeline.results import ReceiverFindings, ReportContent
 from gnssrel.pipeline.stages import audit_log, compare_clocks, relativity_summary, relativity_terms
+from gnssrel.pipeline.titles import report_title
 from gnssrel.pipeline.verdicts import receiver_verdict
 from gnssrel.pipeline.window import aligned_grid, analysis_window, drop_excluded
 
@@ -176,6 +177,8 @@ def analyse(nav_paths, precise_paths=(), obs_paths=(), fixes_paths=(), clocks_pa
     for r in content.receivers:
         r.verdict = receiver_verdict(r.name, r.audit_summary, r.clock_check)
     content.accounting = ledger.as_dict()
+    if not title:                                       # from the files: 'NYA1 2024-05-03 (day 124)'
+        content.title = report_title(content)
     content.summary = combined_summary(content)
     content.summary["systems"] = present
     return content
