@@ -58,6 +58,7 @@ def add_arguments(parser) -> None:
                              "(etrf2000: approximate ITRF->ETRF2000 transformation, a few cm)")
     parser.add_argument("--no-jackknife", action="store_true",
                         help="give only the formal sigma of k (skips one re-solve per satellite)")
+    common.add_include_unhealthy(parser)
     parser.add_argument("--plots", metavar="DIR",
                         help="write the figure of the term effects and the convergence to DIR (PNG, SVG, PDF)")
     common.add_outputs(parser, "per-observation residuals table (.csv, .parquet or .nc)")
@@ -101,7 +102,8 @@ def run(args) -> dict:
     with step("solving"):
         result = survey(obs_ds, nav, precise, systems=letters, reference_ecef_m=position, ledger=ledger,
                         elevation_mask_deg=args.elevation_mask, min_arc_s=60.0 * args.min_arc, parts=args.parts,
-                        jackknife=not args.no_jackknife, reference_frame=args.reference_frame)
+                        jackknife=not args.no_jackknife, reference_frame=args.reference_frame,
+                        include_unhealthy=args.include_unhealthy)
     summary = result["summary"]
     if antenna is not None:
         summary["satellite_antenna_offsets"] = antenna

@@ -17,6 +17,7 @@ from gnssrel import geodesy
 from gnssrel.accounting import Ledger
 from gnssrel.audit.observables import code_variables
 from gnssrel.errors import NoDataError
+from gnssrel.orbits.selection import SYSTEM_LIMITS
 from gnssrel.survey import arcs, effects, etrs, model, solve
 from gnssrel.timescales import seconds_between
 
@@ -25,9 +26,10 @@ NO_PRECISE = "no precise orbit or clock"
 OUTLIER = "post-fit residual outlier"
 NOT_REQUESTED = "system not requested"
 NOT_SURVEYED = "system not surveyed (GPS and Galileo only)"
+EXCLUDED = "excluded by rule"        # the satellites the broadcast selection rules exclude (E14, E18)
 MAX_ITERATIONS = 3
 OPTIONS = {"elevation_mask_deg": 10.0, "min_arc_s": arcs.MIN_ARC_S, "zwd_node_s": 7200.0, "parts": 4,
-           "block_s": 3600.0, "jackknife": True, "reference_frame": "itrf"}
+           "block_s": 3600.0, "jackknife": True, "reference_frame": "itrf", "include_unhealthy": False}
 REFERENCE_FRAMES = ("itrf", "etrf2000")
 """The frame of the reference position: that of the orbits (itrf), or ETRS89 as ETRF2000 (:mod:`etrs`):
 the reference is then moved into the orbits' frame before every comparison."""
@@ -134,6 +136,9 @@ def survey(obs_ds, nav, precise: dict, systems: str = "GE", reference_ecef_m=Non
         reference = header - (etrs.itrf_to_etrf2000(header, mid_time) - header)
     arp_offset = model.arp_offset_ecef_m(reference, obs_ds.attrs.get("antenna_delta_hen_m") or (0.0, 0.0, 0.0))
     obs, info = gather(obs_ds, systems, ledger)
+    if not opts["include_unhealthy"]:   # one rule with the broadcast and precise paths (README: which epochs)
+        excluded = [sv for s in systems if s in SYSTEM_LIMITS for sv in SYSTEM_LIMITS[s].excluded_svs]
+        obs = _subset(obs, ~np.isin(obs["sv"], excluded), ledger, EXCLUDED)
     obs = model.satellite_terms(obs, nav, precise)
     ok = np.all(np.isfinite(obs["satellite_ecef_m"]), axis=1) & np.isfinite(obs["clock_m"])
     obs = _subset(obs, ok, ledger, NO_PRECISE)
