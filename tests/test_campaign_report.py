@@ -34,10 +34,12 @@ def campaign(tmp_path_factory):
     return out, json.loads((out / "summary.json").read_text())
 
 
-def test_every_figure_is_written_as_png_and_svg(campaign):
+def test_every_figure_is_written_as_png_svg_and_pdf(campaign):
     out, _ = campaign
     report = out / "report"
-    assert {p.name for p in report.iterdir()} == {"report.html"} | {f"{k}.{x}" for k in FIGURES for x in ("png", "svg")}
+    assert {p.name for p in report.iterdir()} == {"report.html"} | {f"{k}.{x}" for k in FIGURES
+                                                                    for x in ("png", "svg", "pdf")}
+    assert (report / f"{FIGURES[0]}.pdf").read_bytes()[:5] == b"%PDF-"
     for key in FIGURES:
         assert (report / f"{key}.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
         assert "<svg" in (report / f"{key}.svg").read_text()[:2000]

@@ -136,3 +136,14 @@ def test_without_survey_the_row_and_summary_keep_their_keys():
     assert "survey_repeatability" not in summary and "survey" not in summary["tasks"][0]
     with_survey = campaign_summary([dict(task, survey={"status": "refused", "reason": "x"})], n_skipped=0)
     assert with_survey["survey_repeatability"] == {} and with_survey["tasks"][0]["survey"]["reason"] == "x"
+
+
+def test_campaign_report_shows_the_repeatability(run, tmp_path):
+    from gnssrel.report.campaign_report import write_campaign_report
+
+    _, out, _ = run
+    summary = json.loads((out / "summary.json").read_text())
+    page = (write_campaign_report(out, tmp_path / "report") / "report.html").read_text()
+    assert "day-to-day repeatability" in page and "KVRP00ZZZ" in page
+    east_mm = summary["survey_repeatability"]["KVRP00ZZZ"]["east_mm"]
+    assert f"<td>{east_mm:.3f}</td>" in page                                # the value itself, in its row

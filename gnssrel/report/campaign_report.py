@@ -11,7 +11,6 @@ from __future__ import annotations
 
 import base64
 import html
-import io
 import json
 from pathlib import Path
 
@@ -27,6 +26,7 @@ from gnssrel.report.campaign_figures import (
     satellite_figure,
     station_day_labels,
 )
+from gnssrel.report.figures import FIGURE_FORMATS, page_png, save_figure
 from gnssrel.report.html import CAUTION, _css, table_html
 from gnssrel.report.palette import gnssrel_style
 
@@ -114,13 +114,9 @@ def _write_files(campaign_dir: Path, folder: Path) -> None:
     table = pd.read_parquet(campaign_dir / "campaign.parquet")
     figures = build_campaign_figures(campaign_dir)
     rendered = []
-    with gnssrel_style():
-        for item in figures:
-            for fmt in ("png", "svg"):
-                item.figure.savefig(folder / f"{item.key}.{fmt}", format=fmt)
-            buffer = io.BytesIO()
-            item.figure.savefig(buffer, format="png")
-            rendered.append((item, buffer.getvalue()))
+    for item in figures:          # PNG at print resolution, SVG and PDF, as the report of one log
+        files = save_figure(item, folder)
+        rendered.append((item, page_png(item, print_png=files["png"])))
     (folder / "report.html").write_text(_page(summary, table, rendered), encoding="utf-8")
 
 
@@ -141,6 +137,8 @@ def _page(summary: dict, table: pd.DataFrame, figures) -> str:
              f"<div class='caution'><strong>Caution.</strong> {e(CAUTION)}</div>",
              "<nav class='contents'><ol><li><a href='#failed'>Failed tasks</a></li>"]
     parts += [f"<li><a href='#{f.key}'>{e(f.title)}</a></li>" for f, _ in figures]
+    if summary.get("survey_repeatability"):
+        parts.append("<li><a href='#survey'>Carrier-phase positions: day-to-day repeatability</a></li>")
     parts.append("<li><a href='#table'>Campaign table</a></li></ol></nav>")
     parts.append("<h2 id='failed'>Failed tasks</h2>")
     if failed or net_failed:
@@ -155,13 +153,30 @@ def _page(summary: dict, table: pd.DataFrame, figures) -> str:
     parts.append("<h2 id='figures'>Figures</h2>")
     for n, (fig, png) in enumerate(figures, start=1):
         data = base64.b64encode(png).decode("ascii")
-        links = " · ".join(f"<a href='{fig.key}.{fmt}'>{fmt.upper()}</a>" for fmt in ("png", "svg"))
+        links = " · ".join(f"<a href='{fig.key}.{fmt}'>{fmt.upper()}</a>" for fmt in FIGURE_FORMATS)
         parts.append(f"<figure id='{fig.key}'><h3>Figure {n}. {e(fig.title)}</h3>"
                      f"<img alt='{e(fig.title)}' src='data:image/png;base64,{data}'>"
                      f"<figcaption><b>Figure {n}.</b> {e(fig.caption)}"
                      f"<span class='files'>Files: {links}</span></figcaption></figure>")
+    parts += _survey_section(summary)
     parts.append("<h2 id='table'>Campaign table</h2><p class='csv'>One row per station-day; also as "
                  "<a href='../campaign.csv'>campaign.csv</a> and campaign.parquet beside this folder.</p>")
     parts.append(table_html(table, max_rows=max(len(table), 1)))
     parts.append(f"<footer>Times are GPST throughout. Written by gnssrel {__version__}.</footer></main></body></html>")
     return "\n".join(parts)
+
+
+def _survey_section(summary: dict) -> list[str]:
+    """With ``campaign --survey``: each station's repeatability of its daily carrier-phase positions."""
+    rep = summary.get("survey_repeatability")
+    if not rep:
+        return []
+    rows = pd.DataFrame([{"station": station, "days": r.get("n_days"), "east (mm)": r.get("east_mm"),
+                          "north (mm)": r.get("north_mm"), "up (mm)": r.get("up_mm")}
+                         for station, r in sorted(rep.items())])
+    return ["<h2 id='survey'>Carrier-phase positions: day-to-day repeatability</h2>",
+            ("<p class='csv'>Standard deviation of each station's daily static positions (gnssrel survey: "
+            "ionosphere-free code and phase with the precise orbits and clocks, every relativistic term "
+            "applied) about the station's mean; blank with one day. The daily east/north/up against the "
+            "header are in the campaign table (survey_east_m, survey_north_m, survey_up_m).</p>"),
+            table_html(rows, max_rows=max(len(rows), 1))]
