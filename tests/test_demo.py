@@ -75,9 +75,9 @@ def test_demo_writes_the_report_and_the_plots(demo_run):
     out, plots, summary, _ = demo_run
     assert (out / "report.html").stat().st_size > 500_000
     pngs = sorted(p.name for p in plots.glob("*.png"))
-    # the figures every demo report has: six of the scenario, two per receiver, the accounting
+    # the figures every demo report has: six of the scenario, three per receiver, the accounting
     expected = {"periodic_term", "rate_decomposition", "proper_time", "clock_convention", "orbit_differences",
-                "signal_path", "coverage"} | {f"{kind}_{r}" for kind in ("audit", "positions_enu")
+                "signal_path", "coverage"} | {f"{kind}_{r}" for kind in ("audit", "positions_enu", "receiver_clock")
                                               for r in ("KVRP", "SLMB")}
     assert pngs == sorted(p.name for p in out.glob("*.png"))
     assert {p.removesuffix(".png") for p in pngs} == expected

@@ -18,8 +18,8 @@ from gnssrel.report.layout import GpstFormatter
 
 EXPECTED_FIGURES = {"periodic_term", "rate_decomposition", "proper_time", "clock_convention",
                     "audit_KVRP", "audit_SLMB", "coverage", "orbit_differences", "signal_path",
-                    "positions_enu_KVRP", "positions_enu_SLMB"}
-UNIT = re.compile(r"\((?:[^()]*\b)?(ns|µs|µs/day|ns/day|m|dimensionless|RINEX name|hypothesis|"
+                    "positions_enu_KVRP", "positions_enu_SLMB", "receiver_clock_KVRP", "receiver_clock_SLMB"}
+UNIT = re.compile(r"\((?:[^()]*\b)?(ns|ns/s|µs|ms|µs/day|ns/day|m|dimensionless|RINEX name|hypothesis|"
                   r"GPST[^()]*|count[^()]*|%)\)")
 
 

@@ -20,7 +20,7 @@ import xarray as xr
 from gnssrel.geodesy import geodetic_to_ecef
 from gnssrel.report.layout import GpstFormatter
 
-UNIT = ("(m)", "(ns)", "(dimensionless)", "(RINEX name)", "GPST")
+UNIT = ("(m)", "(ns)", "(ns/s)", "(µs)", "(ms)", "(dimensionless)", "(RINEX name)", "GPST")
 
 
 @pytest.fixture(scope="module")
@@ -193,3 +193,34 @@ def test_geometry_pdop_of_a_degenerate_geometry_is_missing_not_an_error():
     c = pd.DataFrame({"time": times.repeat(5), "sv": [f"G{k:02d}" for k in range(1, 6)], "system": "G",
                       "elevation_deg": 45.0, "azimuth_deg": 120.0})
     assert np.isnan(geometry_pdop(c, times)[0])
+
+
+def test_receiver_clock_figure_shows_the_bias_the_drift_and_a_millisecond_reset():
+    # A receiver 3.9 ms off drifting by 1e-7 that resets by -1 ms after 5 minutes (issue 13: low-cost
+    # modules behave so); the positions table carries the clock in metres (clock_m).
+    from types import SimpleNamespace
+
+    from gnssrel.constants import C_M_S
+    from gnssrel.report.fig_receiver_clock import receiver_clock_figure
+
+    t = np.datetime64("2025-06-11T10:00:00", "ns") + np.arange(600) * np.timedelta64(1, "s")
+    bias_s = -3.9e-3 + 1e-7 * np.arange(600) - 1e-3 * (np.arange(600) >= 300)
+    positions = pd.DataFrame({"time": t, "clock_m": bias_s * C_M_S})
+    receiver = SimpleNamespace(name="LOWC", audit=SimpleNamespace(positions={"applied": positions}), clock_series=None)
+    item = receiver_clock_figure(receiver)
+    assert item.key == "receiver_clock_LOWC"
+    bias_ax, drift_ax = item.figure.axes[:2]
+    assert bias_ax.get_ylabel() == "receiver clock − GPST (ms)" and drift_ax.get_ylabel() == "drift (ns/s)"
+    assert "1 jump(s) found" in item.caption and "-1.000 ms" in item.caption
+    assert "100.00 ns/s" in item.caption                           # 1e-7 s/s with the jump taken out
+    drift_line = drift_ax.get_lines()[0].get_ydata()
+    assert np.nanmax(np.abs(np.asarray(drift_line, float) - 100.0)) < 1e-3
+
+
+def test_receiver_clock_figures_of_the_demo(content):
+    from gnssrel.report.fig_receiver_clock import receiver_clock_figure
+
+    for r in content.receivers:
+        item = receiver_clock_figure(r)
+        _labels_have_units(item)
+        assert "No jump found" in item.caption                     # the demo receivers do not reset

@@ -116,7 +116,7 @@ def test_default_window_is_the_overlap_with_the_precise_day():
 MOJN_FIGURES = {"periodic_term", "rate_decomposition", "proper_time", "clock_convention", "orbit_differences",
                 "signal_path", "coverage"}
 NYA1_FIGURES = {"periodic_term", "rate_decomposition", "proper_time", "signal_path", "audit_NYA1",
-                "positions_enu_NYA1", "coverage"}
+                "positions_enu_NYA1", "receiver_clock_NYA1", "coverage"}
 
 
 @pytest.mark.refdata

@@ -252,7 +252,8 @@ def _compare_clock_series(r, path, audited, progress) -> None:
     """The receiver's own clock series (``--receiver-clock-bias``) against gnssrel's clock per
     hypothesis: ``receiver_clock_series`` in its audit summary, its rows in the audit's ledger."""
     progress(f"{r.name}: the receiver's own clock series")
-    block, series_ledger = check_receiver_clock_series(read_receiver_clock_series(path), audited.positions)
+    r.clock_series = read_receiver_clock_series(path)
+    block, series_ledger = check_receiver_clock_series(r.clock_series, audited.positions)
     r.audit_summary["receiver_clock_series"] = block
     audited.ledger.merge(series_ledger)
 

@@ -31,6 +31,7 @@ class ReceiverFindings:
     clock_rows: pd.DataFrame | None = None
     clock_check: dict | None = None
     clock_table: pd.DataFrame | None = None     # the clock-table rows checked (in the window)
+    clock_series: pd.DataFrame | None = None    # the receiver's own clock series (--receiver-clock-bias)
     verdict: dict = field(default_factory=dict)  # gnssrel.pipeline.verdicts.receiver_verdict
 
 

@@ -23,6 +23,7 @@ from gnssrel.report.fig_periodic import periodic_figure
 from gnssrel.report.fig_positions import position_figure
 from gnssrel.report.fig_proper_time import proper_time_figure
 from gnssrel.report.fig_rates import rates_figure
+from gnssrel.report.fig_receiver_clock import receiver_clock_figure
 from gnssrel.report.fig_signal_path import signal_path_figure
 from gnssrel.report.layout import ReportFigure
 from gnssrel.report.palette import gnssrel_style
@@ -42,7 +43,7 @@ def build_figures(content) -> list[ReportFigure]:
         made = [periodic_figure(content), rates_figure(content), proper_time_figure(content),
                 clocks_figure(content), orbit_differences_figure(content), signal_path_figure(content)]
         for r in content.receivers:
-            made += [audit_figure(r), position_figure(r)]
+            made += [audit_figure(r), position_figure(r), receiver_clock_figure(r)]
         made.append(coverage_figure(content))
     return [f for f in made if f is not None]
 
