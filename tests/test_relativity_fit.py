@@ -92,17 +92,21 @@ def _dense_reference(y, x, epoch, sv):
     return k, formal, rms, sigma
 
 
+def _assert_matches_the_dense_solve(fit, y, x, e, s):
+    k, formal, rms, sigma = _dense_reference(y, x, e, s)
+    assert fit["k"] == pytest.approx(k, rel=1e-10)
+    assert fit["sigma_formal"] == pytest.approx(formal, rel=1e-10)
+    assert fit["rms_fit_m"] == pytest.approx(rms, rel=1e-10)
+    assert fit["sigma"] == pytest.approx(sigma, rel=1e-10)
+
+
 def test_normal_equations_match_a_dense_solve():
     # The fit eliminates the epoch and satellite effects from sums per (epoch, satellite) cell
     # (module text); a small problem solved densely with all columns must give the same figures.
     y, x, e, s = _synthetic(1.0, seed=5, n_epoch=90, n_sat=8, visible=5)
     fit = fit_periodic_factor(y, x, e, s, reject_sigma=1e9)
-    k, formal, rms, sigma = _dense_reference(y, x, e, s)
+    _assert_matches_the_dense_solve(fit, y, x, e, s)
     assert fit["n_rejected"] == 0
-    assert fit["k"] == pytest.approx(k, rel=1e-10)
-    assert fit["sigma_formal"] == pytest.approx(formal, rel=1e-10)
-    assert fit["rms_fit_m"] == pytest.approx(rms, rel=1e-10)
-    assert fit["sigma"] == pytest.approx(sigma, rel=1e-10)
     assert fit["n_sat"] == 8 and fit["n_epochs"] == np.unique(e).size
     # A receiver clock offset of 1 ms (300 km in y) is an epoch effect: nothing changes, to the
     # precision of the data (the cell sums are taken after centring on the epoch means).
@@ -121,12 +125,8 @@ def test_a_satellite_never_seen_with_another_takes_the_pseudo_inverse():
     e = np.concatenate([e, np.arange(1000, 1005)])
     s = np.concatenate([s, np.full(5, "G99")])
     fit = fit_periodic_factor(y, x, e, s, reject_sigma=1e9)
-    k, formal, rms, sigma = _dense_reference(y, x, e, s)
     assert fit["n_sat"] == 7
-    assert fit["k"] == pytest.approx(k, rel=1e-10)
-    assert fit["sigma_formal"] == pytest.approx(formal, rel=1e-10)
-    assert fit["rms_fit_m"] == pytest.approx(rms, rel=1e-10)
-    assert fit["sigma"] == pytest.approx(sigma, rel=1e-10)
+    _assert_matches_the_dense_solve(fit, y, x, e, s)
 
 
 def test_a_full_day_fit_is_one_pass_over_the_data():

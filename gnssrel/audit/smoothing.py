@@ -39,6 +39,7 @@ import numpy as np
 
 from gnssrel import signals
 from gnssrel.constants import C_M_S
+from gnssrel.io.rinex_obs_fields import lost_lock
 from gnssrel.timescales import seconds_between
 
 SLIP_THRESHOLD_M = 10.0
@@ -65,8 +66,7 @@ def hatch_filter(code_m, phase_m, times, window_s: float, lli=None, slip_thresho
     if interval_s is None:
         interval_s = float(np.median(dt)) if dt.size else 1.0
     gap = np.concatenate([[False], dt > GAP_FACTOR * max(interval_s, 1e-3)])
-    lost = np.zeros((n_t, n_sv), bool) if lli is None else \
-        (np.mod(np.nan_to_num(np.asarray(lli, float), nan=0.0).astype(np.int64), 2) == 1)
+    lost = np.zeros((n_t, n_sv), bool) if lli is None else lost_lock(lli)
     n_max = max(float(window_s) / max(interval_s, 1e-3), 1.0)
     out = code.copy()
     state = np.full(n_sv, np.nan)
@@ -145,7 +145,7 @@ def smooth_code(obs_ds, system: str, codes, cols, code_m, window_s: float,
         lli = np.zeros(code_m.shape)
         for f in flags:
             if f is not None:
-                lli = np.where(np.mod(np.nan_to_num(f, nan=0.0), 2) == 1, 1.0, lli)
+                lli = np.where(lost_lock(f), 1.0, lli)
     if len(codes) == 2:
         f1, f2 = (signals.frequency_hz(system, c) for c in codes)   # FDMA: f1/f2 = 9/7 on every channel
         g1, g2 = f1**2, f2**2

@@ -24,6 +24,13 @@ _BODY_CHAR = _VALUE_CHAR.copy()
 _BODY_CHAR[10] = True   # line ends
 
 
+def lost_lock(flags) -> np.ndarray:
+    """Where bit 0 of a loss-of-lock indicator is set (lost lock since the previous observation:
+    a cycle slip is possible; RINEX 3.05 5.3.1, RINEX 2.11 table A3); blank (NaN) is not set.
+    ``flags``: the ``<phase>lli`` values of ``read_observations(..., with_flags=True)``."""
+    return np.mod(np.nan_to_num(np.asarray(flags, float), nan=0.0).astype(np.int64), 2) == 1
+
+
 @dataclass
 class Lines:
     """The body's lines as (start, length) into ``raw`` (no line ends, no CR)."""

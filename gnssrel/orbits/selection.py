@@ -180,6 +180,12 @@ RULES = {"post": SelectionRule("post", require_transmitted=False),
          "receiver": SelectionRule("receiver", require_transmitted=True)}
 
 
+def excluded_satellites(systems=None) -> set[str]:
+    """The satellites the rules exclude (:data:`SYSTEM_LIMITS` ``excluded_svs``) for ``systems``
+    (letters; None: every system)."""
+    return {sv for s in (systems or SYSTEM_LIMITS) if s in SYSTEM_LIMITS for sv in SYSTEM_LIMITS[s].excluded_svs}
+
+
 def get_rule(rule: str) -> SelectionRule:
     """The named rule; a clear error for an unknown name."""
     try:

@@ -21,9 +21,10 @@ from gnssrel.accounting import READ, USED, Ledger
 from gnssrel.audit.observables import pseudorange_counts
 from gnssrel.audit.positioning import DOP_GATE
 from gnssrel.orbits import selection
+from gnssrel.orbits.status import STATUS_CODES, STATUS_EXCLUDED
 
 UNHEALTHY = "unhealthy"
-EXCLUDED = "excluded by rule"
+EXCLUDED = STATUS_CODES[STATUS_EXCLUDED]            # "excluded by rule", as the state histories say
 OUTSIDE_WINDOW = "outside the time window"
 SUPERSEDED = "superseded (never the nearest record)"
 NOT_REQUESTED = "system not requested"

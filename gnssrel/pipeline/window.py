@@ -30,7 +30,7 @@ from pathlib import Path
 
 import numpy as np
 
-from gnssrel.orbits.selection import SYSTEM_LIMITS
+from gnssrel.orbits.selection import excluded_satellites
 from gnssrel.orbits.spans import nav_files, reference_times
 from gnssrel.pipeline.accounting import EXCLUDED, _finite_by_system
 from gnssrel.pipeline.grid import epoch_grid
@@ -178,11 +178,6 @@ def aligned_grid(start, end, step_s: float, window: str | None = None) -> np.nda
     "too few epochs" message (naming ``window``) of :func:`gnssrel.pipeline.grid.epoch_grid`."""
     first, last = aligned_bounds(start, end, step_s)
     return epoch_grid(first, last, step_s, window)
-
-
-def excluded_satellites(systems) -> set[str]:
-    """The satellites the selection rules exclude (gnssrel.orbits.selection.SYSTEM_LIMITS) for ``systems``."""
-    return {sv for s in (systems or SYSTEM_LIMITS) if s in SYSTEM_LIMITS for sv in SYSTEM_LIMITS[s].excluded_svs}
 
 
 def drop_excluded(ds, ledger=None, item: str = "sp3_records", variable: str = "position_ecef_m",

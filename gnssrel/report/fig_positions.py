@@ -3,7 +3,7 @@
 Per epoch, gnssrel's position from the receiver's log under each hypothesis the audit
 computed (periodic term applied, omitted, ...; :mod:`gnssrel.audit.firmware`) minus the
 reference position, turned into the local east / north / up frame at the reference
-(:func:`gnssrel.geodesy.ecef_to_enu`); the receiver's own fixes beside them when given.
+(:func:`gnssrel.geodesy.enu_errors`); the receiver's own fixes beside them when given.
 The bottom panel gives the number of satellites in the applied fix and its position
 dilution of precision: the audit's ``pdop`` column when it has one, else PDOP from the
 geometry of the satellites above the elevation mask (:func:`geometry_pdop`).
@@ -15,7 +15,7 @@ import numpy as np
 import pandas as pd
 from matplotlib.lines import Line2D
 
-from gnssrel.geodesy import ecef_to_enu, ecef_to_geodetic
+from gnssrel import geodesy
 from gnssrel.report.layout import (
     ReportFigure,
     as_plot_times,
@@ -33,9 +33,7 @@ ELEVATION_MASK_DEG = 10.0
 
 def enu_errors(positions: pd.DataFrame, reference_ecef_m) -> np.ndarray:
     """(n, 3) east, north, up of ``positions`` (x_m, y_m, z_m) minus the reference, at the reference."""
-    ref = np.asarray(reference_ecef_m, float)
-    lat, lon, _ = ecef_to_geodetic(ref)
-    return ecef_to_enu(positions[["x_m", "y_m", "z_m"]].to_numpy(float) - ref, lat, lon)
+    return geodesy.enu_errors(positions[["x_m", "y_m", "z_m"]].to_numpy(float), reference_ecef_m)
 
 
 def geometry_pdop(corrections: pd.DataFrame, times, elevation_mask_deg: float = ELEVATION_MASK_DEG) -> np.ndarray:

@@ -26,6 +26,7 @@ import numpy as np
 
 from gnssrel import signals
 from gnssrel.constants import C_M_S
+from gnssrel.io.rinex_obs_fields import lost_lock
 from gnssrel.timescales import seconds_between
 
 PAIRS = {
@@ -59,8 +60,7 @@ def choose_pair(obs_ds, system: str, columns) -> tuple[str, str, str, str] | Non
 def _lost_lock(obs_ds, name, columns) -> np.ndarray:
     if name + "lli" not in obs_ds.data_vars:
         return np.zeros((obs_ds.sizes["time"], len(columns)), bool)
-    flags = np.nan_to_num(np.asarray(obs_ds[name + "lli"].values, float)[:, columns], nan=0.0)
-    return np.mod(flags.astype(np.int64), 2) == 1
+    return lost_lock(np.asarray(obs_ds[name + "lli"].values, float)[:, columns])
 
 
 def system_arrays(obs_ds, system: str, columns, pair) -> dict:

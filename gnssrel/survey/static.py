@@ -17,7 +17,8 @@ from gnssrel import geodesy
 from gnssrel.accounting import Ledger
 from gnssrel.audit.observables import code_variables
 from gnssrel.errors import NoDataError
-from gnssrel.orbits.selection import SYSTEM_LIMITS
+from gnssrel.orbits.selection import excluded_satellites
+from gnssrel.orbits.status import STATUS_CODES, STATUS_EXCLUDED
 from gnssrel.survey import arcs, effects, etrs, model, solve
 from gnssrel.timescales import seconds_between
 
@@ -26,7 +27,7 @@ NO_PRECISE = "no precise orbit or clock"
 OUTLIER = "post-fit residual outlier"
 NOT_REQUESTED = "system not requested"
 NOT_SURVEYED = "system not surveyed (GPS and Galileo only)"
-EXCLUDED = "excluded by rule"        # the satellites the broadcast selection rules exclude (E14, E18)
+EXCLUDED = STATUS_CODES[STATUS_EXCLUDED]   # "excluded by rule": the satellites the selection rules exclude
 MAX_ITERATIONS = 3
 OPTIONS = {"elevation_mask_deg": 10.0, "min_arc_s": arcs.MIN_ARC_S, "zwd_node_s": 7200.0, "parts": 4,
            "block_s": 3600.0, "jackknife": True, "reference_frame": "itrf", "include_unhealthy": False}
@@ -137,8 +138,7 @@ def survey(obs_ds, nav, precise: dict, systems: str = "GE", reference_ecef_m=Non
     arp_offset = model.arp_offset_ecef_m(reference, obs_ds.attrs.get("antenna_delta_hen_m") or (0.0, 0.0, 0.0))
     obs, info = gather(obs_ds, systems, ledger)
     if not opts["include_unhealthy"]:   # one rule with the broadcast and precise paths (README: which epochs)
-        excluded = [sv for s in systems if s in SYSTEM_LIMITS for sv in SYSTEM_LIMITS[s].excluded_svs]
-        obs = _subset(obs, ~np.isin(obs["sv"], excluded), ledger, EXCLUDED)
+        obs = _subset(obs, ~np.isin(obs["sv"], sorted(excluded_satellites(systems))), ledger, EXCLUDED)
     obs = model.satellite_terms(obs, nav, precise)
     ok = np.all(np.isfinite(obs["satellite_ecef_m"]), axis=1) & np.isfinite(obs["clock_m"])
     obs = _subset(obs, ok, ledger, NO_PRECISE)
@@ -170,21 +170,26 @@ def survey(obs_ds, nav, precise: dict, systems: str = "GE", reference_ecef_m=Non
         ledger.retire("observations", str(system), OUTLIER, 2 * int(np.sum(bad & (obs["system"] == system))))
     summary = _summarise(sys_, x, cov, arp, arp_offset, reference, opts, info, ledger)
     marker = np.array([summary["position"][k] for k in ("x_m", "y_m", "z_m")])
-    e, n_, u = geodesy.enu_errors(etrs.itrf_to_etrf2000(marker, mid_time), header)
     summary["position"]["reference_frame"] = opts["reference_frame"]
     summary["position"]["etrf2000_check_m"] = {
-        "east": round(float(e), 4), "north": round(float(n_), 4), "up": round(float(u), 4),
+        **_etrf2000_check(marker, mid_time, header),
         "note": "the solution turned into ETRF2000 (approximate, a few cm) minus the header: for headers that "
                 "hold ETRS89 coordinates (European networks)"}
     summary["position_product_convention"] = _product_convention_position(
-        summary, marker, x, sys_.names, reference, header, mid_time)
+        marker, x, sys_.names, reference, header, mid_time)
     summary["arcs"] = {"used": n_arcs, "dropped_short": n_short, "min_arc_s": opts["min_arc_s"],
                        "outliers_dropped": n_outliers,
                        "periodic_spec_from_state": int(obs["spec_from_state"].sum())}
     return {"summary": summary, "residuals": _residual_table(sys_, x)}
 
 
-def _product_convention_position(summary, marker, x, names, reference, header, mid_time) -> dict:
+def _etrf2000_check(point, mid_time, header) -> dict:
+    """East/north/up (m) of ``point`` turned into ETRF2000 (:mod:`etrs`) minus the header."""
+    e, n, u = geodesy.enu_errors(etrs.itrf_to_etrf2000(point, mid_time), header)
+    return {"east": round(float(e), 4), "north": round(float(n), 4), "up": round(float(u), 4)}
+
+
+def _product_convention_position(marker, x, names, reference, header, mid_time) -> dict:
     """The point under the model the product's clocks were estimated with (IGS convention: -2 r.v/c^2
     on the precise state, no J2 term; :data:`gnssrel.survey.effects.VARIANTS`): what a user of such a
     product should take.  The full model (spec form + J2) stays the primary solution, since each term
@@ -192,10 +197,9 @@ def _product_convention_position(summary, marker, x, names, reference, header, m
     j = list(names).index("product_convention")
     point = marker + x[:3, j] - x[:3, 0]
     enu = geodesy.enu_errors(point, reference)
-    e, n, u = geodesy.enu_errors(etrs.itrf_to_etrf2000(point, mid_time), header)
     return {"x_m": round(float(point[0]), 4), "y_m": round(float(point[1]), 4), "z_m": round(float(point[2]), 4),
             "east_m": round(float(enu[0]), 4), "north_m": round(float(enu[1]), 4), "up_m": round(float(enu[2]), 4),
-            "etrf2000_check_m": {"east": round(float(e), 4), "north": round(float(n), 4), "up": round(float(u), 4)},
+            "etrf2000_check_m": _etrf2000_check(point, mid_time, header),
             "model": "periodic term as -2 r.v/c^2 on the precise state, no J2 term (the IGS convention: the "
                      "product's clocks absorb the rest)"}
 
